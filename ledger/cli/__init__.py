@@ -1,0 +1,63 @@
+"""The ``propledger`` command line: parse, call a service, print a table or JSON. Nothing else.
+
+Each module in COMMAND_MODULES adds its sub-commands through ``register``. Any LedgerError becomes one
+line on stderr and exit status 2; nothing is written on an error.
+"""
+from __future__ import annotations
+
+import argparse
+import importlib
+import os
+import sys
+
+from ..errors import LedgerError
+
+COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.demo")
+EXIT_ERROR = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports a usage error in one line (and exit status 2)."""
+
+    def error(self, message: str):  # noqa: D401
+        raise LedgerError(f"{self.prog}: {message} (see '{self.prog} --help')")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="propledger", description=(
+        "Propellant and delta-v ledger for spacecraft operations. Decision support only: verify against the "
+        "mission's flight-dynamics system of record, its mission rules and the responsible engineers."))
+    parser.add_argument("--ledger", help="ledger file (else $PROPLEDGER_LEDGER, else the user data folder)")
+    sub = parser.add_subparsers(dest="command", parser_class=_Parser, metavar="COMMAND")
+    for name in COMMAND_MODULES:
+        importlib.import_module(name).register(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    argv = sys.argv[1:] if argv is None else argv
+    try:
+        args = build_parser().parse_args(argv)
+        if not getattr(args, "func", None):
+            from .console import open_console  # noqa: PLC0415 - textual only when the console opens
+
+            return open_console(args)
+        return int(args.func(args) or 0)
+    except LedgerError as exc:
+        print(f"propledger: error: {exc}", file=sys.stderr)
+        return EXIT_ERROR
+    except KeyboardInterrupt:
+        print("propledger: interrupted; nothing further written", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 0
+    except Exception as exc:  # noqa: BLE001 - a user never sees a traceback; developers can ask for one
+        if os.environ.get("PROPLEDGER_DEBUG"):
+            raise
+        print(f"propledger: internal error: {type(exc).__name__}: {exc} (PROPLEDGER_DEBUG=1 shows the traceback)",
+              file=sys.stderr)
+        return EXIT_ERROR
+
+
+def run() -> None:
+    sys.exit(main())

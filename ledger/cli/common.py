@@ -1,0 +1,58 @@
+"""Helpers shared by the command modules: options every write takes, quantities, the ledger, output."""
+from __future__ import annotations
+
+import json
+import sys
+from typing import Any
+
+from ..services.ledger import Ledger, resolve_path
+from ..services.timefmt import parse_time
+from ..units import parse_quantity
+
+
+def add_write_options(p) -> None:
+    p.add_argument("--at", help="when it happened or is planned (ISO 8601; UTC unless an offset is given; default now)")
+    p.add_argument("--by", help="who records it (default: the operating-system user)")
+    p.add_argument("--note", help="free text kept with the entry")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+
+
+def add_json(p) -> None:
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+
+
+def qty(value: str | None, dimension: str, option: str, *, signed: bool = False) -> float | None:
+    return None if value is None else parse_quantity(value, dimension, option, signed=signed)
+
+
+def when(args) -> float | None:
+    return None if getattr(args, "at", None) is None else parse_time(args.at, "--at")
+
+
+def open_ledger(args) -> Ledger:
+    return Ledger(resolve_path(getattr(args, "ledger", None)))
+
+
+def dump_json(obj: Any) -> None:
+    json.dump(obj, sys.stdout, indent=2, allow_nan=False, default=str)
+    sys.stdout.write("\n")
+
+
+def console(stderr: bool = False):
+    from rich.console import Console  # noqa: PLC0415
+
+    return Console(stderr=stderr, highlight=False, soft_wrap=False)
+
+
+def esc(text: Any) -> str:
+    """User text made inert for rich markup."""
+    from rich.markup import escape  # noqa: PLC0415
+
+    return escape(str(text if text is not None else ""))
+
+
+def warn(lines: list[str]) -> None:
+    if lines:
+        err = console(stderr=True)
+        for line in lines:
+            err.print(f"[bold yellow]warning:[/] {esc(line)}")

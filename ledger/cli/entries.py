@@ -1,0 +1,119 @@
+"""Write commands: init, burn, plan, mass, use, withdraw, correct."""
+from __future__ import annotations
+
+from ..core.entries import BURN, MASS, PLAN, USE, WITHDRAW
+from ..services import craftfile
+from ..services.ledger import create, resolve_path
+from .common import add_write_options, console, dump_json, esc, open_ledger, qty, warn, when
+
+
+def register(sub) -> None:
+    p = sub.add_parser("init", help="create a new ledger from a craft file (never overwrites)")
+    p.add_argument("--craft", required=True, help="craft file (YAML)")
+    p.add_argument("--by", help="who creates it")
+    p.add_argument("--json", action="store_true")
+    p.set_defaults(func=cmd_init)
+
+    p = sub.add_parser("burn", help="log an executed burn")
+    p.add_argument("--engine", required=True)
+    amount = p.add_mutually_exclusive_group(required=True)
+    amount.add_argument("--dv", help="achieved delta-v, e.g. '1.8 m/s'")
+    amount.add_argument("--duration", help="burn duration, e.g. '95 s' (propellant = thrust/(Isp g0) x duration)")
+    amount.add_argument("--propellant", help="propellant used, e.g. '2.4 kg'")
+    p.add_argument("--plan", help="id of the pending plan this burn executes")
+    add_write_options(p)
+    p.set_defaults(func=cmd_burn)
+
+    p = sub.add_parser("plan", help="log a planned burn (pending until executed or withdrawn)")
+    p.add_argument("--engine", required=True)
+    p.add_argument("--dv", required=True)
+    add_write_options(p)
+    p.set_defaults(func=cmd_plan)
+
+    p = sub.add_parser("mass", help="log a non-propulsive mass change (deployment, separation)")
+    p.add_argument("--delta", required=True, help="signed, e.g. '-35 kg'", type=str)
+    add_write_options(p)
+    p.set_defaults(func=cmd_mass)
+
+    p = sub.add_parser("use", help="log propellant used without delta-v (attitude control, off-loading, venting)")
+    p.add_argument("--engine", required=True)
+    amount = p.add_mutually_exclusive_group(required=True)
+    amount.add_argument("--duration")
+    amount.add_argument("--propellant")
+    add_write_options(p)
+    p.set_defaults(func=cmd_use)
+
+    p = sub.add_parser("withdraw", help="withdraw a pending plan")
+    p.add_argument("--plan", required=True)
+    add_write_options(p)
+    p.set_defaults(func=cmd_withdraw)
+
+    p = sub.add_parser("correct", help="supersede an earlier entry with corrected fields (the original stays)")
+    p.add_argument("--entry", required=True, help="id of the entry to correct")
+    p.add_argument("--reason", help="why the entry was wrong (required)")
+    p.add_argument("--engine")
+    p.add_argument("--dv")
+    p.add_argument("--duration")
+    p.add_argument("--propellant")
+    p.add_argument("--delta")
+    add_write_options(p)
+    p.set_defaults(func=cmd_correct)
+
+
+def _report(stored: dict, warnings: list[str], as_json: bool) -> int:
+    if as_json:
+        dump_json({"id": stored["seq"], "kind": stored["kind"], "hash": stored["hash"], "warnings": warnings})
+    else:
+        console().print(f"recorded entry {stored['seq']} ({stored['kind']})")
+    if not as_json:
+        warn(warnings)
+    return 0
+
+
+def cmd_init(args) -> int:
+    craft = craftfile.load_craft(args.craft)
+    path = resolve_path(args.ledger)
+    lf = create(path, craft, by=args.by)
+    if args.json:
+        dump_json({"ledger": lf.path, "craft": craft.name})
+    else:
+        console().print(f"created ledger {esc(lf.path)} for {esc(craft.name)}")
+    return 0
+
+
+def _record(args, kind: str, data: dict) -> int:
+    led = open_ledger(args)
+    stored, warnings = led.record(kind, data, at=when(args), by=args.by, note=args.note)
+    return _report(stored, warnings, args.json)
+
+
+def cmd_burn(args) -> int:
+    return _record(args, BURN, {"engine": args.engine, "dv": qty(args.dv, "speed", "--dv"),
+                                "duration": qty(args.duration, "time", "--duration"),
+                                "propellant": qty(args.propellant, "mass", "--propellant"), "plan": args.plan})
+
+
+def cmd_plan(args) -> int:
+    return _record(args, PLAN, {"engine": args.engine, "dv": qty(args.dv, "speed", "--dv")})
+
+
+def cmd_mass(args) -> int:
+    return _record(args, MASS, {"delta": qty(args.delta, "mass", "--delta", signed=True)})
+
+
+def cmd_use(args) -> int:
+    return _record(args, USE, {"engine": args.engine, "duration": qty(args.duration, "time", "--duration"),
+                               "propellant": qty(args.propellant, "mass", "--propellant")})
+
+
+def cmd_withdraw(args) -> int:
+    return _record(args, WITHDRAW, {"plan": args.plan})
+
+
+def cmd_correct(args) -> int:
+    changes = {"at": when(args), "note": args.note, "engine": args.engine,
+               "dv": qty(args.dv, "speed", "--dv"), "duration": qty(args.duration, "time", "--duration"),
+               "propellant": qty(args.propellant, "mass", "--propellant"),
+               "delta": qty(args.delta, "mass", "--delta", signed=True)}
+    stored, warnings = open_ledger(args).correct(args.entry, changes, reason=args.reason, by=args.by)
+    return _report(stored, warnings, args.json)

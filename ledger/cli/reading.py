@@ -1,0 +1,136 @@
+"""Read commands: status, check, log, verify. Tables by rich, or JSON with --json."""
+from __future__ import annotations
+
+import sys
+
+from ..services import views
+from .common import add_json, console, dump_json, esc, open_ledger, qty
+
+EXIT_INFEASIBLE = 1
+
+
+def register(sub) -> None:
+    p = sub.add_parser("status", help="propellant per tank, delta-v per engine, plans and warnings now")
+    add_json(p)
+    p.set_defaults(func=cmd_status)
+
+    p = sub.add_parser("check", help="check a proposed burn against the capability left (after pending plans)")
+    p.add_argument("--engine", required=True)
+    p.add_argument("--dv", required=True)
+    add_json(p)
+    p.set_defaults(func=cmd_check)
+
+    p = sub.add_parser("log", help="the entries in replay order with mass after and propellant per tank")
+    p.add_argument("--last", type=int, help="only the last N rows")
+    add_json(p)
+    p.set_defaults(func=cmd_log)
+
+    p = sub.add_parser("verify", help="recompute the hash chain; exit 1 on any break")
+    add_json(p)
+    p.set_defaults(func=cmd_verify)
+
+
+def cmd_status(args) -> int:
+    snap = open_ledger(args).snapshot()
+    data = views.status(snap)
+    if args.json:
+        dump_json(data)
+        return 0
+    print_status(data)
+    return 0
+
+
+def print_status(data: dict) -> None:
+    from rich.table import Table  # noqa: PLC0415
+
+    out = console()
+    out.print(f"[bold]{esc(data['craft'])}[/]  mass {data['mass_kg']:.2f} kg  entries {data['entries']}  "
+              f"chain {esc(data['integrity'])}")
+    tanks = Table(title="Tanks", title_justify="left")
+    for col in ("tank", "fluid", "loaded kg", "remaining kg", "residual kg", "usable kg", "usable %"):
+        tanks.add_column(col, justify="left" if col in ("tank", "fluid") else "right")
+    for tid, t in data["tanks"].items():
+        pct = 100.0 * t["usable_kg"] / max(t["load_kg"] - t["residual_kg"], 1e-12)
+        tanks.add_row(esc(tid), esc(t["fluid"]), f"{t['load_kg']:.2f}", f"{t['remaining_kg']:.3f}",
+                      f"{t['residual_kg']:.2f}", f"{t['usable_kg']:.3f}", f"{pct:.1f}")
+    out.print(tanks)
+    engines = Table(title="Engines", title_justify="left")
+    for col in ("engine", "dv available m/s", "dv free m/s", "limiting tank"):
+        engines.add_column(col, justify="left" if col in ("engine", "limiting tank") else "right")
+    for eid, e in data["engines"].items():
+        engines.add_row(esc(eid), f"{e['dv_available_m_s']:.2f}", f"{e['dv_free_m_s']:.2f}", esc(e["limiting_tank"]))
+    out.print(engines)
+    if data["reserves"]:
+        out.print("Reserves held back: " + "; ".join(
+            f"{esc(r['id'])} {r['dv_m_s']:.2f} m/s on {esc(r['engine'])}" for r in data["reserves"]))
+    if data["pending_plans"]:
+        out.print("Pending plans: " + "; ".join(
+            f"#{p['id']} {esc(p['engine'])} {p['dv_m_s']:.3f} m/s at {p['at']}" for p in data["pending_plans"]))
+    for w in data["warnings"]:
+        out.print(f"[bold yellow]warning:[/] {esc(w)}")
+    out.print(f"[dim]{esc(data['caution'])}[/]")
+
+
+def cmd_check(args) -> int:
+    snap = open_ledger(args).snapshot()
+    dv = qty(args.dv, "speed", "--dv")
+    if args.engine not in snap.craft.engine_ids:
+        from ..errors import InputError  # noqa: PLC0415
+
+        raise InputError(f"--engine: unknown engine '{args.engine}' (engines: {', '.join(snap.craft.engine_ids)})")
+    data = views.check(snap, args.engine, dv)
+    if args.json:
+        dump_json(data)
+    else:
+        out = console()
+        style = "bold green" if data["verdict"] == "feasible" else "bold red"
+        out.print(f"[{style}]{data['verdict'].upper()}[/]  {esc(args.engine)} {dv:.3f} m/s "
+                  f"after {len(data['commitments'])} pending plan(s)")
+        out.print(f"propellant needed {data['propellant_kg']:.3f} kg (" + ", ".join(
+            f"{esc(t)} {kg:.3f}" for t, kg in data["propellant_by_tank_kg"].items()) + ")")
+        out.print(f"dv free after {data['dv_free_after_m_s']:.2f} m/s; {esc(data['reason'])}")
+        out.print(f"[dim]{esc(data['caution'])}[/]")
+    return 0 if data["verdict"] == "feasible" else EXIT_INFEASIBLE
+
+
+def cmd_log(args) -> int:
+    snap = open_ledger(args).snapshot()
+    rows = views.log(snap)
+    if args.last:
+        rows = rows[-args.last:]
+    if args.json:
+        dump_json(rows)
+        return 0
+    from rich.table import Table  # noqa: PLC0415
+
+    table = Table(title=f"{esc(snap.craft.name)}: ledger in replay order", title_justify="left")
+    tank_ids = snap.craft.tank_ids
+    for col in ["id", "kind", "at (UTC)", "engine", "amount", "mass after kg"] + [f"{t} kg" for t in tank_ids] + ["by", "note"]:
+        table.add_column(esc(col), justify="right" if col.endswith("kg") or col == "id" else "left")
+    for r in rows:
+        kind = r["kind"].upper() + (" (superseded)" if r["superseded"] else "") + (" late" if r.get("late") else "")
+        if r["kind"] == "plan":
+            kind += f" {r['state']}"
+        if r["kind"] == "correct":
+            kind += f" of #{r['corrects']}"
+        drawn = r.get("drawn_kg", {})
+        table.add_row(str(r["id"]), esc(kind), r["at"][:16].replace("T", " "), esc(r.get("engine") or ""),
+                      esc(r.get("amount", "")), f"{r['mass_after_kg']:.3f}" if "mass_after_kg" in r else "",
+                      *[f"{drawn[t]:.4f}" if t in drawn else "" for t in tank_ids], esc(r["by"]),
+                      esc(r.get("reason") or r.get("note") or ""))
+    console().print(table)
+    return 0
+
+
+def cmd_verify(args) -> int:
+    led = open_ledger(args)
+    brk = led.file.verify()
+    seq, head = led.file.head()
+    if args.json:
+        dump_json({"intact": brk is None, "entries": seq, "head": head,
+                   "break": None if brk is None else {"seq": brk.seq, "problem": brk.problem}})
+    elif brk is None:
+        console().print(f"chain intact: {seq} entries, head {head[:16]}")
+    else:
+        print(f"propledger: {brk}", file=sys.stderr)
+    return 0 if brk is None else 1

@@ -1,0 +1,71 @@
+"""Craft <-> plain dict of SI numbers: the form the store keeps, so reading a ledger needs no pint."""
+from __future__ import annotations
+
+from typing import Any
+
+from .craft import Craft, Engine, Pressurant, Reserve, Routine, Tank
+
+
+def craft_to_dict(craft: Craft) -> dict[str, Any]:
+    def tank(t: Tank) -> dict[str, Any]:
+        d: dict[str, Any] = {"id": t.id, "fluid": t.fluid, "load_kg": t.load_kg, "residual_kg": t.residual_kg}
+        if t.volume_m3 is not None:
+            d["volume_m3"] = t.volume_m3
+        if t.pressurant is not None:
+            p = t.pressurant
+            d["pressurant"] = {"gas": p.gas, "pressure_pa": p.pressure_pa, "temperature_k": p.temperature_k}
+        if t.load_sigma_kg is not None:
+            d["load_sigma_kg"] = t.load_sigma_kg
+        return d
+
+    def engine(e: Engine) -> dict[str, Any]:
+        d: dict[str, Any] = {"id": e.id, "isp_s": e.isp_s, "thrust_n": e.thrust_n,
+                             "cant_deg": e.cant_deg, "feeds": dict(e.feeds)}
+        if e.isp_sigma_s is not None:
+            d["isp_sigma_s"] = e.isp_sigma_s
+        if e.thrust_sigma_n is not None:
+            d["thrust_sigma_n"] = e.thrust_sigma_n
+        return d
+
+    out: dict[str, Any] = {
+        "name": craft.name,
+        "dry_mass_kg": craft.dry_mass_kg,
+        "tanks": [tank(t) for t in craft.tanks],
+        "engines": [engine(e) for e in craft.engines],
+        "reserves": [{"id": r.id, "engine": r.engine, "dv_m_s": r.dv_m_s} for r in craft.reserves],
+        "routine": [{"engine": r.engine, "dv_per_year_m_s": r.dv_per_year_m_s} for r in craft.routine],
+    }
+    if craft.dry_mass_sigma_kg is not None:
+        out["dry_mass_sigma_kg"] = craft.dry_mass_sigma_kg
+    if craft.extra:
+        out["extra"] = dict(craft.extra)
+    return out
+
+
+def craft_from_dict(d: dict[str, Any]) -> Craft:
+    def tank(t: dict[str, Any]) -> Tank:
+        p = t.get("pressurant")
+        return Tank(
+            id=t["id"], fluid=t["fluid"], load_kg=float(t["load_kg"]), residual_kg=float(t.get("residual_kg", 0.0)),
+            volume_m3=t.get("volume_m3"),
+            pressurant=Pressurant(p["gas"], float(p["pressure_pa"]), float(p["temperature_k"])) if p else None,
+            load_sigma_kg=t.get("load_sigma_kg"),
+        )
+
+    def engine(e: dict[str, Any]) -> Engine:
+        return Engine(
+            id=e["id"], isp_s=float(e["isp_s"]), thrust_n=float(e["thrust_n"]), cant_deg=float(e.get("cant_deg", 0.0)),
+            feeds={k: float(v) for k, v in e["feeds"].items()},
+            isp_sigma_s=e.get("isp_sigma_s"), thrust_sigma_n=e.get("thrust_sigma_n"),
+        )
+
+    return Craft(
+        name=d["name"],
+        dry_mass_kg=float(d["dry_mass_kg"]),
+        tanks=tuple(tank(t) for t in d["tanks"]),
+        engines=tuple(engine(e) for e in d["engines"]),
+        reserves=tuple(Reserve(r["id"], r["engine"], float(r["dv_m_s"])) for r in d.get("reserves", [])),
+        routine=tuple(Routine(r["engine"], float(r["dv_per_year_m_s"])) for r in d.get("routine", [])),
+        dry_mass_sigma_kg=d.get("dry_mass_sigma_kg"),
+        extra=d.get("extra", {}),
+    )

@@ -1,0 +1,129 @@
+"""The spacecraft as the ledger sees it: dry mass, tanks, engines and reserves, all in SI floats.
+
+Parsing text and units happens elsewhere (``ledger.units``, ``ledger.services.craftfile``); this module
+only holds validated numbers and the derived quantities every replay needs (exhaust velocity, feed
+fractions), so the maths never has to look anything up by name.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Mapping
+
+import numpy as np
+
+G0 = 9.80665
+"""Standard gravity in m/s^2, exact by definition (3rd CGPM, 1901)."""
+
+
+@dataclass(frozen=True)
+class Pressurant:
+    """Loading conditions of a blowdown tank's pressurant gas (fix the initial ullage)."""
+
+    gas: str
+    pressure_pa: float
+    temperature_k: float
+
+
+@dataclass(frozen=True)
+class Tank:
+    id: str
+    fluid: str
+    load_kg: float
+    residual_kg: float = 0.0
+    volume_m3: float | None = None
+    pressurant: Pressurant | None = None
+    load_sigma_kg: float | None = None
+
+
+@dataclass(frozen=True)
+class Engine:
+    id: str
+    isp_s: float
+    thrust_n: float
+    feeds: Mapping[str, float]
+    cant_deg: float = 0.0
+    isp_sigma_s: float | None = None
+    thrust_sigma_n: float | None = None
+
+    @property
+    def ve(self) -> float:
+        """Effective exhaust velocity along the burn direction: Isp·g0·cos(cant)."""
+        return self.isp_s * G0 * math.cos(math.radians(self.cant_deg))
+
+    @property
+    def mass_flow(self) -> float:
+        """Propellant flow in kg/s while firing: thrust/(Isp·g0); the cant does not reduce it."""
+        return self.thrust_n / (self.isp_s * G0)
+
+
+@dataclass(frozen=True)
+class Reserve:
+    id: str
+    engine: str
+    dv_m_s: float
+
+
+@dataclass(frozen=True)
+class Routine:
+    """Delta-v an engine spends per year in routine operations (station keeping, drag make-up)."""
+
+    engine: str
+    dv_per_year_m_s: float
+
+
+@dataclass(frozen=True)
+class Craft:
+    name: str
+    dry_mass_kg: float
+    tanks: tuple[Tank, ...]
+    engines: tuple[Engine, ...]
+    reserves: tuple[Reserve, ...] = ()
+    routine: tuple[Routine, ...] = ()
+    dry_mass_sigma_kg: float | None = None
+    extra: Mapping[str, Any] = field(default_factory=dict)
+
+    # --- lookups -------------------------------------------------------------------------
+    @property
+    def tank_ids(self) -> list[str]:
+        return [t.id for t in self.tanks]
+
+    @property
+    def engine_ids(self) -> list[str]:
+        return [e.id for e in self.engines]
+
+    def tank_index(self, tank_id: str) -> int:
+        return self.tank_ids.index(tank_id)
+
+    def engine_index(self, engine_id: str) -> int:
+        return self.engine_ids.index(engine_id)
+
+    def engine(self, engine_id: str) -> Engine:
+        return self.engines[self.engine_index(engine_id)]
+
+    # --- arrays the replay works on --------------------------------------------------------
+    def loads(self) -> np.ndarray:
+        return np.array([t.load_kg for t in self.tanks], dtype=float)
+
+    def residuals(self) -> np.ndarray:
+        return np.array([t.residual_kg for t in self.tanks], dtype=float)
+
+    def ve(self) -> np.ndarray:
+        return np.array([e.ve for e in self.engines], dtype=float)
+
+    def mass_flows(self) -> np.ndarray:
+        return np.array([e.mass_flow for e in self.engines], dtype=float)
+
+    def feed_fractions(self) -> np.ndarray:
+        """Matrix engines x tanks: the share of each kilogram an engine draws from each tank."""
+        frac = np.zeros((len(self.engines), len(self.tanks)))
+        ids = self.tank_ids
+        for i, eng in enumerate(self.engines):
+            total = sum(eng.feeds.values())
+            for tank_id, parts in eng.feeds.items():
+                frac[i, ids.index(tank_id)] = parts / total
+        return frac
+
+    @property
+    def initial_mass_kg(self) -> float:
+        return self.dry_mass_kg + float(self.loads().sum())

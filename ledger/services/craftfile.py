@@ -1,0 +1,150 @@
+"""Reading a craft file (YAML, safe loading) into a validated ``Craft``.
+
+The fields in the README are a contract users' files rely on; anything wrong is one line naming the
+file, the field and what was expected. Optional fields (volumes, pressurant, sigmas, routine operations)
+are checked the same way when present.
+"""
+from __future__ import annotations
+
+import math
+from typing import Any, Mapping
+
+import yaml
+
+from ..core.craft import Craft, Engine, Pressurant, Reserve, Routine, Tank
+from ..errors import InputError
+from ..units import parse_quantity
+
+
+def load_yaml(path: str) -> Any:
+    try:
+        with open(path, encoding="utf-8") as fh:
+            return yaml.safe_load(fh)
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such file") from None
+    except IsADirectoryError:
+        raise InputError(f"{path}: is a folder, not a craft file") from None
+    except UnicodeDecodeError:
+        raise InputError(f"{path}: not a text file (expected YAML)") from None
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f" at line {mark.line + 1}" if mark else ""
+        raise InputError(f"{path}: not valid YAML{where}") from None
+
+
+class _Fields:
+    """Reads one mapping of the craft file with errors that say where."""
+
+    def __init__(self, src: str, node: Any, where: str):
+        if not isinstance(node, Mapping):
+            raise InputError(f"{src}: {where}: expected a mapping of fields, got {type(node).__name__}")
+        self.src, self.node, self.where = src, node, where
+
+    def at(self, key: str) -> str:
+        return f"{self.src}: {self.where}.{key}" if self.where else f"{self.src}: {key}"
+
+    def text(self, key: str) -> str:
+        if key not in self.node:
+            raise InputError(f"{self.at(key)}: missing (expected text)")
+        value = self.node[key]
+        if isinstance(value, bool) or not isinstance(value, (str, int, float)) or str(value).strip() == "":
+            raise InputError(f"{self.at(key)}: expected non-empty text, got {value!r}")
+        return str(value).strip()
+
+    def qty(self, key: str, dimension: str, default: float | None = None, *, positive: bool = False,
+            required: bool = True) -> float | None:
+        if key not in self.node or self.node[key] is None:
+            if default is not None or not required:
+                return default
+            raise InputError(f"{self.at(key)}: missing (expected a {dimension})")
+        return parse_quantity(self.node[key], dimension, self.at(key), positive=positive)
+
+
+def _list(src: str, doc: Mapping, key: str, required: bool = True) -> list:
+    value = doc.get(key)
+    if value is None and not required:
+        return []
+    if not isinstance(value, list) or (required and not value):
+        raise InputError(f"{src}: {key}: expected a non-empty list")
+    return value
+
+
+def _unique(src: str, kind: str, ids: list[str]) -> None:
+    seen = set()
+    for i in ids:
+        if i in seen:
+            raise InputError(f"{src}: {kind}: duplicate id '{i}'")
+        seen.add(i)
+
+
+def craft_from_document(doc: Any, src: str) -> Craft:
+    if not isinstance(doc, Mapping):
+        raise InputError(f"{src}: expected a mapping with craft, tanks, engines (and reserves)")
+    head = _Fields(src, doc.get("craft"), "craft") if "craft" in doc else None
+    if head is None:
+        raise InputError(f"{src}: craft: missing (expected name and dry_mass)")
+    tanks = []
+    for i, node in enumerate(_list(src, doc, "tanks")):
+        f = _Fields(src, node, f"tanks[{i}]")
+        pressurant = None
+        if node.get("pressurant") is not None:
+            p = _Fields(src, node["pressurant"], f"tanks[{i}].pressurant")
+            pressurant = Pressurant(p.text("gas"), p.qty("pressure", "pressure", positive=True),
+                                    p.qty("temperature", "temperature"))
+        tank = Tank(id=f.text("id"), fluid=f.text("fluid"), load_kg=f.qty("load", "mass"),
+                    residual_kg=f.qty("residual", "mass", 0.0),
+                    volume_m3=f.qty("volume", "volume", required=False, positive=True), pressurant=pressurant,
+                    load_sigma_kg=f.qty("load_sigma", "mass", required=False))
+        if tank.residual_kg > tank.load_kg:
+            raise InputError(f"{f.at('residual')}: {tank.residual_kg:g} kg exceeds the load of {tank.load_kg:g} kg")
+        tanks.append(tank)
+    _unique(src, "tanks", [t.id for t in tanks])
+    tank_ids = {t.id for t in tanks}
+    engines = []
+    for i, node in enumerate(_list(src, doc, "engines")):
+        f = _Fields(src, node, f"engines[{i}]")
+        feeds_node = node.get("feeds")
+        if not isinstance(feeds_node, Mapping) or not feeds_node:
+            raise InputError(f"{f.at('feeds')}: expected a mapping of tank id to mass parts, e.g. {{ox: 1.65, fuel: 1}}")
+        feeds = {}
+        for tank_id, parts in feeds_node.items():
+            if str(tank_id) not in tank_ids:
+                raise InputError(f"{f.at('feeds')}: unknown tank '{tank_id}' (tanks: {', '.join(sorted(tank_ids))})")
+            if isinstance(parts, bool) or not isinstance(parts, (int, float)) or not math.isfinite(parts) or parts <= 0:
+                raise InputError(f"{f.at('feeds')}.{tank_id}: expected a positive number of mass parts, got {parts!r}")
+            feeds[str(tank_id)] = float(parts)
+        cant = f.qty("cant", "angle", 0.0)
+        if cant >= 90.0:
+            raise InputError(f"{f.at('cant')}: {cant:g} deg leaves no thrust along the burn (expected below 90 deg)")
+        engines.append(Engine(id=f.text("id"), isp_s=f.qty("isp", "time", positive=True),
+                              thrust_n=f.qty("thrust", "force", positive=True), feeds=feeds, cant_deg=cant,
+                              isp_sigma_s=f.qty("isp_sigma", "time", required=False),
+                              thrust_sigma_n=f.qty("thrust_sigma", "force", required=False)))
+    _unique(src, "engines", [e.id for e in engines])
+    engine_ids = {e.id for e in engines}
+
+    def engine_ref(f: _Fields) -> str:
+        ref = f.text("engine")
+        if ref not in engine_ids:
+            raise InputError(f"{f.at('engine')}: unknown engine '{ref}' (engines: {', '.join(sorted(engine_ids))})")
+        return ref
+
+    reserves = []
+    for i, node in enumerate(_list(src, doc, "reserves", required=False)):
+        f = _Fields(src, node, f"reserves[{i}]")
+        reserves.append(Reserve(f.text("id"), engine_ref(f), f.qty("dv", "speed")))
+    _unique(src, "reserves", [r.id for r in reserves])
+    routine = []
+    ops = head.node.get("operations") or doc.get("operations") or {}
+    if not isinstance(ops, Mapping):
+        raise InputError(f"{src}: operations: expected a mapping with 'routine'")
+    for i, node in enumerate(ops.get("routine") or []):
+        f = _Fields(src, node, f"operations.routine[{i}]")
+        routine.append(Routine(engine_ref(f), f.qty("dv_per_year", "speed")))
+    return Craft(name=head.text("name"), dry_mass_kg=head.qty("dry_mass", "mass", positive=True),
+                 tanks=tuple(tanks), engines=tuple(engines), reserves=tuple(reserves), routine=tuple(routine),
+                 dry_mass_sigma_kg=head.qty("dry_mass_sigma", "mass", required=False))
+
+
+def load_craft(path: str) -> Craft:
+    return craft_from_document(load_yaml(path), path)

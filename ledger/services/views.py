@@ -1,0 +1,138 @@
+"""Plain-data views of a snapshot (status, check, log): what JSON output, tables and the console show."""
+from __future__ import annotations
+
+from typing import Any
+
+from ..core import capability as cap
+from ..core.entries import BURN, CORRECT, MASS, PLAN, USE, WITHDRAW
+from .ledger import Snapshot
+from .timefmt import iso
+
+CAUTION = ("Decision support only: verify every figure against the mission's flight-dynamics system of record, "
+           "its mission rules and the responsible engineers before acting.")
+
+
+def status(snap: Snapshot) -> dict[str, Any]:
+    craft = snap.craft
+    usable = snap.usable_kg
+    reserves = []
+    for r in craft.reserves:
+        reserves.append({"id": r.id, "engine": r.engine, "dv_m_s": r.dv_m_s})
+    return {
+        "craft": craft.name,
+        "ledger": snap.path,
+        "entries": len(snap.entries),
+        "as_of": iso(max((e.at for e in snap.resolved.events), default=0.0)) if snap.resolved.events else None,
+        "mass_kg": snap.state.mass_kg,
+        "dry_mass_kg": craft.dry_mass_kg,
+        "tanks": {
+            t.id: {"fluid": t.fluid, "load_kg": t.load_kg, "remaining_kg": float(snap.state.remaining_kg[i]),
+                   "residual_kg": t.residual_kg, "usable_kg": float(usable[i])}
+            for i, t in enumerate(craft.tanks)
+        },
+        "engines": {
+            e.engine: {"dv_available_m_s": e.dv_available_m_s, "dv_free_m_s": e.dv_free_m_s,
+                       "limiting_tank": e.limiting_tank, "reserves_met": e.reserves_met}
+            for e in snap.engines
+        },
+        "reserves": reserves,
+        "pending_plans": [plan_row(p) for p in snap.resolved.pending],
+        "integrity": "intact" if snap.integrity is None else str(snap.integrity),
+        "warnings": list(snap.warnings),
+        "caution": CAUTION,
+    }
+
+
+def plan_row(p) -> dict[str, Any]:
+    return {"id": p.seq, "engine": p.get("engine"), "dv_m_s": p.get("dv"), "at": iso(p.at), "by": p.by, "note": p.note}
+
+
+def commitments(snap: Snapshot) -> list[tuple[str, float]]:
+    return [(p.get("engine"), float(p.get("dv"))) for p in snap.resolved.pending]
+
+
+def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True) -> dict[str, Any]:
+    res = cap.check(snap.craft, snap.state, engine, dv, commitments(snap) if include_pending else [])
+    return {
+        "engine": res.engine, "dv_m_s": res.dv_m_s,
+        "verdict": "feasible" if res.feasible else "infeasible",
+        "propellant_kg": res.propellant_kg, "propellant_by_tank_kg": res.propellant_by_tank,
+        "dv_free_after_m_s": res.dv_free_after_m_s, "limiting_tank": res.limiting_tank,
+        "margin_after_reserves_kg": res.margin_by_tank,
+        "commitments": [{"engine": e, "dv_m_s": d} for e, d in res.commitments],
+        "reason": res.reason, "caution": CAUTION,
+    }
+
+
+KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "WDRAW", CORRECT: "CORR"}
+
+
+def _amount(data) -> str:
+    if data.get("dv") is not None:
+        return f"{data['dv']:.3f} m/s"
+    if data.get("duration") is not None:
+        return f"{data['duration']:.3f} s"
+    if data.get("propellant") is not None:
+        return f"{data['propellant']:.4f} kg"
+    if data.get("delta") is not None:
+        return f"{data['delta']:+.3f} kg"
+    return ""
+
+
+def _roots(snap: Snapshot) -> dict[int, int]:
+    """Correction seq -> seq of the original entry its chain of corrections leads to."""
+    by_seq = {e.seq: e for e in snap.entries}
+    roots = {}
+    for e in snap.entries:
+        if e.kind == CORRECT:
+            r = int(e.data["entry"])
+            while by_seq[r].kind == CORRECT:
+                r = int(by_seq[r].data["entry"])
+            roots[e.seq] = r
+    return roots
+
+
+def log(snap: Snapshot) -> list[dict[str, Any]]:
+    """Every entry in replay order. A corrected entry keeps its original values, marked superseded; the
+    latest correction of it stands where the corrected event replays and carries its effect."""
+    rep, events = snap.replay, snap.resolved.events
+    effect = {ev.seq: i for i, ev in enumerate(events)}
+    roots = _roots(snap)
+    last_fix: dict[int, int] = {}
+    for c, r in roots.items():
+        last_fix[r] = max(c, last_fix.get(r, 0))
+    tank_ids = snap.craft.tank_ids
+    rows = []
+    for e in snap.entries:
+        shown = e
+        row: dict[str, Any] = {"id": e.seq, "kind": e.kind, "recorded": iso(e.recorded), "by": e.by,
+                               "superseded": e.seq in snap.resolved.superseded or e.seq in last_fix}
+        carrier = e.seq not in last_fix
+        if e.kind == CORRECT:
+            root = roots[e.seq]
+            carrier = last_fix[root] == e.seq
+            row.update(corrects=e.data.get("entry"), reason=e.data.get("reason"),
+                       changes=", ".join(f"{k}={v}" for k, v in e.data.get("changes", {}).items()))
+            shown = snap.resolved.effective[root] if carrier else e
+            row["applies_to_kind"] = snap.resolved.effective[root].kind
+            key_seq = root
+        else:
+            key_seq = e.seq
+        row.update(at=iso(shown.at), note=shown.note if e.kind != CORRECT else e.note,
+                   engine=shown.get("engine"), amount=_amount(shown.data))
+        row["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > 3600.0
+        if shown.get("plan") is not None and e.kind != CORRECT:
+            row["plan"] = shown.get("plan")
+        if e.kind == PLAN:
+            row["state"] = ("executed" if e.seq in snap.resolved.executed_by else
+                            "withdrawn" if e.seq in snap.resolved.withdrawn else "pending")
+        i = effect.get(key_seq) if carrier else None
+        if i is not None:
+            row["mass_after_kg"] = float(rep.mass_after[i])
+            row["propellant_kg"] = float(rep.propellant[i])
+            row["dv_m_s"] = float(rep.dv[i])
+            row["drawn_kg"] = {t: float(rep.drawn[i, k]) for k, t in enumerate(tank_ids) if rep.drawn[i, k] != 0}
+        row["_order"] = (shown.at, e.seq)
+        rows.append(row)
+    rows.sort(key=lambda r: r.pop("_order"))
+    return rows

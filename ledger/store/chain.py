@@ -1,0 +1,67 @@
+"""Hash chain over the ledger: each entry carries the SHA-256 of its predecessor and of itself.
+
+Canonical form: JSON, UTF-8, keys sorted, no whitespace, shortest round-trip floats (orjson); the hash
+field itself is left out. The craft definition record is the chain's first link.
+"""
+from __future__ import annotations
+
+import hashlib
+import math
+from dataclasses import dataclass
+from typing import Any, Iterable, Mapping
+
+import orjson
+
+GENESIS_PREV = "0" * 64
+
+
+def _check_finite(obj: Any, where: str) -> None:
+    if isinstance(obj, float) and not math.isfinite(obj):
+        raise ValueError(f"non-finite number in {where}")
+    if isinstance(obj, Mapping):
+        for k, v in obj.items():
+            _check_finite(v, f"{where}.{k}")
+    elif isinstance(obj, (list, tuple)):
+        for i, v in enumerate(obj):
+            _check_finite(v, f"{where}[{i}]")
+
+
+def canonical(record: Mapping[str, Any]) -> bytes:
+    body = {k: v for k, v in record.items() if k != "hash"}
+    _check_finite(body, "record")
+    return orjson.dumps(body, option=orjson.OPT_SORT_KEYS)
+
+
+def digest(record: Mapping[str, Any]) -> str:
+    return hashlib.sha256(canonical(record)).hexdigest()
+
+
+@dataclass(frozen=True)
+class Break:
+    """The first place the chain fails: which record and what differs."""
+
+    seq: int
+    problem: str
+
+    def __str__(self) -> str:
+        where = "craft definition" if self.seq == 0 else f"entry {self.seq}"
+        return f"chain broken at {where}: {self.problem}"
+
+
+def verify_chain(meta: Mapping[str, Any], records: Iterable[Mapping[str, Any]]) -> Break | None:
+    """Recompute every link; return the first break, or None when the chain holds."""
+    if meta.get("hash") != digest(meta):
+        return Break(0, "stored hash does not match the craft definition's contents")
+    prev = meta["hash"]
+    expected = 1
+    for rec in records:
+        seq = rec.get("seq")
+        if seq != expected:
+            return Break(expected, f"sequence jumps from {expected - 1} to {seq}")
+        if rec.get("prev") != prev:
+            return Break(seq, "link to the previous entry does not match its hash")
+        if rec.get("hash") != digest(rec):
+            return Break(seq, "stored hash does not match the entry's contents")
+        prev = rec["hash"]
+        expected += 1
+    return None

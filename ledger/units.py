@@ -1,0 +1,83 @@
+"""The one place where text with units becomes SI floats (pint, loaded only when a unit is written).
+
+A bare number is taken in the field's base unit (kg, s, N, deg, m/s, Pa, K, m^3). Every value must be
+finite; signs are checked by the caller's rule. Errors name the field and what was expected.
+"""
+from __future__ import annotations
+
+import math
+import re
+from functools import lru_cache
+from typing import Any
+
+from .errors import InputError
+
+# dimension name -> (base unit text, pint dimensionality string)
+DIMENSIONS: dict[str, tuple[str, str]] = {
+    "mass": ("kg", "[mass]"),
+    "time": ("s", "[time]"),
+    "force": ("N", "[mass] * [length] / [time] ** 2"),
+    "angle": ("deg", ""),
+    "speed": ("m/s", "[length] / [time]"),
+    "pressure": ("Pa", "[mass] / [length] / [time] ** 2"),
+    "temperature": ("K", "[temperature]"),
+    "volume": ("m^3", "[length] ** 3"),
+}
+_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+
+@lru_cache(maxsize=1)
+def registry():
+    import pint  # noqa: PLC0415 - heavy (about 0.5 s); only when a unit is actually written
+
+    return pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+
+
+def _from_pint(number: float, unit: str, dimension: str, where: str) -> float:
+    import pint  # noqa: PLC0415
+
+    ureg = registry()
+    base, dims = DIMENSIONS[dimension]
+    unit = unit.replace("°C", "degC").replace("°F", "degF").replace("°", "deg")
+    try:
+        q = ureg.Quantity(number, unit)
+        if dimension == "angle":
+            if not q.dimensionless:
+                raise pint.DimensionalityError(q.units, "deg")
+            return float(q.to("deg").magnitude)
+        if dimension == "temperature":
+            return float(q.to("kelvin").magnitude)
+        return float(q.to(base.replace("^", "**")).magnitude)
+    except pint.DimensionalityError:
+        raise InputError(f"{where}: '{number:g} {unit}' is not a {dimension} (expected a unit like {base})") from None
+    except (pint.UndefinedUnitError, pint.errors.DefinitionSyntaxError, AttributeError, TypeError, ValueError,
+            AssertionError, KeyError, SyntaxError, pint.errors.PintError):
+        raise InputError(f"{where}: unknown unit '{unit}' (expected a {dimension} such as {base})") from None
+
+
+def parse_quantity(value: Any, dimension: str, where: str, *, signed: bool = False, positive: bool = False) -> float:
+    """SI float from a number or a 'number unit' string; raises InputError naming ``where``."""
+    base = DIMENSIONS[dimension][0]
+    if isinstance(value, bool) or value is None:
+        raise InputError(f"{where}: expected a {dimension} (a number in {base} or text like '12 {base}'), got {value!r}")
+    if isinstance(value, (int, float)):
+        number, unit = float(value), ""
+    elif isinstance(value, str):
+        m = _NUMBER.match(value)
+        if not m or not m.group(1).isascii():
+            raise InputError(f"{where}: expected a {dimension} like '12 {base}', got {value!r}")
+        number, unit = float(m.group(1)), m.group(2)
+    else:
+        raise InputError(f"{where}: expected a {dimension}, got {type(value).__name__}")
+    if not math.isfinite(number):
+        raise InputError(f"{where}: {value!r} is not a finite number")
+    si = number if unit in ("", base) else _from_pint(number, unit, dimension, where)
+    if not math.isfinite(si):
+        raise InputError(f"{where}: {value!r} is not a finite {dimension}")
+    if dimension == "temperature" and si <= 0:
+        raise InputError(f"{where}: {value!r} is at or below absolute zero")
+    if not signed and si < 0:
+        raise InputError(f"{where}: {value!r} must not be negative")
+    if positive and si <= 0:
+        raise InputError(f"{where}: {value!r} must be greater than zero")
+    return si

@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 from ..core.entries import BURN, MASS, PLAN, USE, WITHDRAW
-from ..services import craftfile
 from ..services.ledger import create, resolve_path
 from .common import add_write_options, console, dump_json, esc, open_ledger, qty, warn, when
 
@@ -71,6 +70,8 @@ def _report(stored: dict, warnings: list[str], as_json: bool) -> int:
 
 
 def cmd_init(args) -> int:
+    from ..services import craftfile  # noqa: PLC0415 - yaml only when a craft file is read
+
     craft = craftfile.load_craft(args.craft)
     path = resolve_path(args.ledger)
     lf = create(path, craft, by=args.by)

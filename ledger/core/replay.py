@@ -30,27 +30,31 @@ class Steps:
 
 def steps_from_events(craft: Craft, events: Sequence[Entry]) -> Steps:
     """Turn resolved events into step arrays; a duration becomes propellant through the mass flow."""
+    index = {e.id: i for i, e in enumerate(craft.engines)}
+    flows = craft.mass_flows()
     n = len(events)
     kind = np.empty(n, dtype=np.int8)
     engine = np.full(n, -1, dtype=np.int32)
     amount = np.empty(n, dtype=float)
     is_burn = np.zeros(n, dtype=bool)
-    index = {e.id: i for i, e in enumerate(craft.engines)}
-    flows = craft.mass_flows()
     for i, ev in enumerate(events):
         d = ev.data
         if ev.kind == MASS:
-            kind[i], amount[i] = STEP_MASS, d["delta"]
+            kind[i] = STEP_MASS
+            amount[i] = d["delta"]
             continue
         e = index[d["engine"]]
         engine[i] = e
-        is_burn[i] = ev.kind == BURN
-        if ev.kind == BURN and d.get("dv") is not None:
-            kind[i], amount[i] = STEP_SCALE, d["dv"]
-        elif d.get("duration") is not None:
-            kind[i], amount[i] = STEP_DRAW, flows[e] * d["duration"]
-        else:
-            kind[i], amount[i] = STEP_DRAW, d["propellant"]
+        if ev.kind == BURN:
+            is_burn[i] = True
+            dv = d.get("dv")
+            if dv is not None:
+                kind[i] = STEP_SCALE
+                amount[i] = dv
+                continue
+        dur = d.get("duration")
+        kind[i] = STEP_DRAW
+        amount[i] = flows[e] * dur if dur is not None else d["propellant"]
     return Steps(kind, engine, amount, is_burn)
 
 

@@ -83,6 +83,7 @@ def craft_from_document(doc: Any, src: str) -> Craft:
     head = _Fields(src, doc.get("craft"), "craft") if "craft" in doc else None
     if head is None:
         raise InputError(f"{src}: craft: missing (expected name and dry_mass)")
+    name, dry_mass = head.text("name"), head.qty("dry_mass", "mass", positive=True)
     tanks = []
     for i, node in enumerate(_list(src, doc, "tanks")):
         f = _Fields(src, node, f"tanks[{i}]")
@@ -141,7 +142,7 @@ def craft_from_document(doc: Any, src: str) -> Craft:
     for i, node in enumerate(ops.get("routine") or []):
         f = _Fields(src, node, f"operations.routine[{i}]")
         routine.append(Routine(engine_ref(f), f.qty("dv_per_year", "speed")))
-    return Craft(name=head.text("name"), dry_mass_kg=head.qty("dry_mass", "mass", positive=True),
+    return Craft(name=name, dry_mass_kg=dry_mass,
                  tanks=tuple(tanks), engines=tuple(engines), reserves=tuple(reserves), routine=tuple(routine),
                  dry_mass_sigma_kg=head.qty("dry_mass_sigma", "mass", required=False))
 

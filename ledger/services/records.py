@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import getpass
 import math
+from datetime import datetime
 from typing import Any, Mapping
 
 from ..core.craft import Craft
@@ -20,10 +21,14 @@ def default_user() -> str:
         return "unknown"
 
 
+def _epoch(text: str) -> float:
+    """Stored times are ISO 8601 with 'Z' written by ``timefmt.iso``: parse them without the input checks."""
+    return datetime.fromisoformat(text).timestamp()
+
+
 def entry_from_record(rec: Mapping[str, Any]) -> Entry:
-    return Entry(seq=int(rec["seq"]), kind=str(rec["kind"]), at=parse_time(rec["at"], "at"),
-                 recorded=parse_time(rec["recorded"], "recorded"), by=str(rec.get("by", "")),
-                 note=str(rec.get("note", "")), data=rec.get("data") or {})
+    return Entry(rec["seq"], rec["kind"], _epoch(rec["at"]), _epoch(rec["recorded"]), rec.get("by", ""),
+                 rec.get("note", ""), rec.get("data") or {})
 
 
 def clean_text(value: str | None, where: str) -> str:

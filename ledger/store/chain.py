@@ -15,24 +15,28 @@ import orjson
 GENESIS_PREV = "0" * 64
 
 
-def _check_finite(obj: Any, where: str) -> None:
-    if isinstance(obj, float) and not math.isfinite(obj):
-        raise ValueError(f"non-finite number in {where}")
-    if isinstance(obj, Mapping):
+def check_finite(obj: Any, where: str = "record") -> None:
+    """orjson writes NaN and infinity as null, so refuse them before a record is written."""
+    if type(obj) is float:
+        if not math.isfinite(obj):
+            raise ValueError(f"non-finite number in {where}")
+    elif type(obj) is dict:
         for k, v in obj.items():
-            _check_finite(v, f"{where}.{k}")
-    elif isinstance(obj, (list, tuple)):
+            check_finite(v, f"{where}.{k}")
+    elif type(obj) in (list, tuple):
         for i, v in enumerate(obj):
-            _check_finite(v, f"{where}[{i}]")
+            check_finite(v, f"{where}[{i}]")
 
 
 def canonical(record: Mapping[str, Any]) -> bytes:
     body = {k: v for k, v in record.items() if k != "hash"}
-    _check_finite(body, "record")
     return orjson.dumps(body, option=orjson.OPT_SORT_KEYS)
 
 
-def digest(record: Mapping[str, Any]) -> str:
+def digest(record: Mapping[str, Any], *, new: bool = False) -> str:
+    """SHA-256 of the canonical form; ``new`` records (about to be written) are checked for non-finite numbers."""
+    if new:
+        check_finite(dict(record))
     return hashlib.sha256(canonical(record)).hexdigest()
 
 

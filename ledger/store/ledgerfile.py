@@ -50,7 +50,7 @@ class LedgerFile:
             "schema": SCHEMA, "program": f"propledger {__version__}", "created": created, "by": by,
             "craft": dict(craft), "prev": GENESIS_PREV,
         }
-        meta["hash"] = digest(meta)
+        meta["hash"] = digest(meta, new=True)
         with cls._lock(path, LOCK_TIMEOUT_S):
             durable.write_document(path, {META: {"1": meta}, ENTRIES: {}}, exclusive=True)
         return cls(path)
@@ -120,7 +120,7 @@ class LedgerFile:
                 seq += 1
                 stored: dict[str, Any] = dict(record)
                 stored.update(seq=seq, prev=prev, host=host, program=program)
-                stored["hash"] = prev = digest(stored)
+                stored["hash"] = prev = digest(stored, new=True)
                 stored_all.append(stored)
             db = TinyDB(self.path, storage=durable.DurableStorage)
             try:

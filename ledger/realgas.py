@@ -1,0 +1,74 @@
+"""Real-gas density of pressurants and gas propellants through CoolProp.
+
+Why outside core: CoolProp takes over a second to import, so it is imported inside the
+functions that need it and never when this module is imported (a status command that never
+gauges must not pay for it). Why CoolProp at all: an ideal gas is 7-15 % off for helium
+bottles at 150-310 bar and useless for xenon near its critical point (FIELD.md section 4).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ledger.core.fluids import KNOWN_GASES, canonical_gas, is_gas_name
+
+# Canonical name -> CoolProp fluid name (HEOS backend, reference equations of state).
+_COOLPROP_NAMES = {
+    "helium": "Helium",
+    "xenon": "Xenon",
+    "krypton": "Krypton",
+    "nitrogen": "Nitrogen",
+    "argon": "Argon",
+}
+
+
+def known_gases() -> tuple[str, ...]:
+    """Canonical names of the gases this module can give densities for."""
+    return KNOWN_GASES
+
+
+def is_gas_stored(fluid: str) -> bool:
+    """True if the fluid is stored as a gas (mass = rho_g * V), False for a liquid propellant.
+
+    Unknown names raise ValueError listing every known fluid.
+    """
+    return is_gas_name(fluid)
+
+
+def coolprop_name(gas: str) -> str:
+    """CoolProp's name for a gas given in any accepted spelling."""
+    return _COOLPROP_NAMES[canonical_gas(gas)]
+
+
+def gas_density(
+    gas: str, pressure_pa: float | np.ndarray, temperature_k: float | np.ndarray
+) -> float | np.ndarray:
+    """Density in kg/m3 at (pressure_pa, temperature_k); floats or broadcastable arrays.
+
+    Scalars in give a float back; any array in gives an array of the broadcast shape.
+    """
+    name = coolprop_name(gas)
+    p, t = np.broadcast_arrays(
+        np.asarray(pressure_pa, dtype=float), np.asarray(temperature_k, dtype=float)
+    )
+    if not (np.all(np.isfinite(p)) and np.all(np.isfinite(t))):
+        raise ValueError(f"{gas} density: pressure and temperature must be finite numbers")
+    if np.any(p <= 0.0):
+        raise ValueError(f"{gas} density: pressure must be > 0 Pa; got {float(np.min(p)):.6g} Pa")
+    if np.any(t <= 0.0):
+        raise ValueError(f"{gas} density: temperature must be > 0 K; got {float(np.min(t)):.6g} K")
+
+    from CoolProp.CoolProp import PropsSI  # lazy: heavy import, only when gauging
+
+    flat = PropsSI("D", "P", p.ravel(), "T", t.ravel(), name)
+    rho = np.asarray(flat, dtype=float).reshape(p.shape)
+    if np.ndim(pressure_pa) == 0 and np.ndim(temperature_k) == 0:
+        return float(rho)
+    return rho
+
+
+def molar_mass(gas: str) -> float:
+    """Molar mass in kg/mol as CoolProp's equation of state uses it."""
+    from CoolProp.CoolProp import PropsSI  # lazy
+
+    return float(PropsSI("M", coolprop_name(gas)))

@@ -101,25 +101,46 @@ def cmd_log(args) -> int:
     if args.json:
         dump_json(rows)
         return 0
+    print_log(snap.craft, rows)
+    return 0
+
+
+def kind_label(r: dict) -> str:
+    """Kind as text (never colour alone): superseded entries carry '~', late ones '+late'."""
+    label = r["kind"].upper()
+    if r["kind"] == "plan":
+        label += f" {r['state']}"
+    if r["kind"] == "correct":
+        label = f"CORR #{r['corrects']}"
+    if r.get("late"):
+        label += " +late"
+    return ("~" if r["superseded"] else "") + label
+
+
+def print_log(craft, rows: list[dict]) -> None:
     from rich.table import Table  # noqa: PLC0415
 
-    table = Table(title=f"{esc(snap.craft.name)}: ledger in replay order", title_justify="left")
-    tank_ids = snap.craft.tank_ids
-    for col in ["id", "kind", "at (UTC)", "engine", "amount", "mass after kg"] + [f"{t} kg" for t in tank_ids] + ["by", "note"]:
-        table.add_column(esc(col), justify="right" if col.endswith("kg") or col == "id" else "left")
+    out = console()
+    wide = out.width >= 120
+    tank_ids = craft.tank_ids if out.width >= 100 else []
+    table = Table(title=f"{esc(craft.name)}: ledger in replay order (~ superseded)", title_justify="left",
+                  pad_edge=False, box=None, header_style="bold")
+    cols = ["id", "kind", "at (UTC)", "engine", "amount", "mass after kg", "drawn kg"]
+    cols += [f"{t} kg" for t in tank_ids] + (["by", "note"] if wide else [])
+    for col in cols:
+        right = col.endswith("kg") or col == "id"
+        table.add_column(esc(col), justify="right" if right else "left", no_wrap=col not in ("note",),
+                         overflow="ellipsis")
     for r in rows:
-        kind = r["kind"].upper() + (" (superseded)" if r["superseded"] else "") + (" late" if r.get("late") else "")
-        if r["kind"] == "plan":
-            kind += f" {r['state']}"
-        if r["kind"] == "correct":
-            kind += f" of #{r['corrects']}"
         drawn = r.get("drawn_kg", {})
-        table.add_row(str(r["id"]), esc(kind), r["at"][:16].replace("T", " "), esc(r.get("engine") or ""),
-                      esc(r.get("amount", "")), f"{r['mass_after_kg']:.3f}" if "mass_after_kg" in r else "",
-                      *[f"{drawn[t]:.4f}" if t in drawn else "" for t in tank_ids], esc(r["by"]),
-                      esc(r.get("reason") or r.get("note") or ""))
-    console().print(table)
-    return 0
+        cells = [str(r["id"]), esc(kind_label(r)), r["at"][:16].replace("T", " "), esc(r.get("engine") or ""),
+                 esc(r.get("amount", "")), f"{r['mass_after_kg']:.3f}" if "mass_after_kg" in r else "",
+                 f"{r['propellant_kg']:.4f}" if r.get("propellant_kg") else ""]
+        cells += [f"{drawn[t]:.4f}" if t in drawn else "" for t in tank_ids]
+        if wide:
+            cells += [esc(r["by"]), esc(r.get("reason") or r.get("note") or "")]
+        table.add_row(*cells)
+    out.print(table)
 
 
 def cmd_verify(args) -> int:

@@ -5,7 +5,6 @@ import os
 import tempfile
 
 from ..errors import InputError
-from ..services import scenario
 
 DEFAULT = "geo-comsat"
 
@@ -19,6 +18,8 @@ def register(sub) -> None:
 
 
 def cmd_demo(args) -> int:
+    from ..services import scenario  # noqa: PLC0415 - yaml and pint only when a scenario is built
+
     found = scenario.bundled()
     if args.scenario == "list":
         for name in found:

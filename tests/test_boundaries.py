@@ -1,0 +1,45 @@
+"""Architecture checks: the core stays pure, and the read-only command line stays light.
+
+Checked in fresh subprocesses, since the test process itself imports everything.
+"""
+import json
+import os
+import subprocess
+import sys
+import textwrap
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+HEAVY_FOR_CORE = ["textual", "rich", "tinydb", "pint", "CoolProp", "matplotlib", "yaml", "orjson"]
+
+
+def loaded_after(code: str) -> set[str]:
+    script = textwrap.dedent(code) + "\nimport sys, json; print(json.dumps(sorted(sys.modules)))\n"
+    out = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, cwd=ROOT, check=True,
+                         env=dict(os.environ, PYTHONPATH=ROOT))
+    return set(json.loads(out.stdout.strip().splitlines()[-1]))
+
+
+def test_core_imports_no_shell_library():
+    mods = loaded_after("""
+        import pkgutil, importlib, ledger.core
+        for m in pkgutil.iter_modules(ledger.core.__path__):
+            importlib.import_module('ledger.core.' + m.name)
+    """)
+    leaked = [name for name in HEAVY_FOR_CORE if name in mods]
+    assert leaked == []
+
+
+def test_status_path_needs_no_console_units_or_real_gas(tmp_path):
+    craft = tmp_path / "c.yaml"
+    craft.write_text("craft: {name: b, dry_mass: 10}\ntanks: [{id: t, fluid: hydrazine, load: 5}]\n"
+                     "engines: [{id: e, isp: 220, thrust: 1, feeds: {t: 1}}]\n")
+    ledger = tmp_path / "l.json"
+    subprocess.run([sys.executable, "-m", "ledger", "--ledger", str(ledger), "init", "--craft", str(craft)],
+                   cwd=ROOT, check=True, capture_output=True, env=dict(os.environ, PYTHONPATH=ROOT))
+    mods = loaded_after(f"""
+        import io, contextlib
+        from ledger.cli import main
+        with contextlib.redirect_stdout(io.StringIO()):
+            main(['--ledger', {str(ledger)!r}, 'status'])
+    """)
+    assert [m for m in ("textual", "pint", "CoolProp", "matplotlib", "yaml") if m in mods] == []

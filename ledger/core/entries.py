@@ -10,7 +10,10 @@ from dataclasses import dataclass, field, replace
 from typing import Any, Iterable, Mapping
 
 BURN, PLAN, MASS, USE, WITHDRAW, CORRECT = "burn", "plan", "mass", "use", "withdraw", "correct"
-KINDS = (BURN, PLAN, MASS, USE, WITHDRAW, CORRECT)
+HANDOVER = "handover"
+"""A shift handover: who handed over to whom and the window covered (data: from, to, window_start,
+window_end in POSIX seconds). It changes no state; it marks where the next "since last" window starts."""
+KINDS = (BURN, PLAN, MASS, USE, WITHDRAW, CORRECT, HANDOVER)
 PROPULSIVE = (BURN, USE)
 AMOUNT_FIELDS = ("dv", "duration", "propellant")
 """Fields of a burn or use in SI: dv in m/s, duration in s, propellant in kg (exactly one is set)."""

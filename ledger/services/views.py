@@ -5,6 +5,7 @@ from typing import Any
 
 from ..core import capability as cap
 from ..core.entries import BURN, CORRECT, HANDOVER, MASS, PLAN, USE, WITHDRAW
+from .forecast import forecast
 from .ledger import Snapshot
 from .timefmt import iso
 
@@ -20,7 +21,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
     reserves = []
     for r in craft.reserves:
         reserves.append({"id": r.id, "engine": r.engine, "dv_m_s": r.dv_m_s})
-    return {
+    out = {
         "craft": craft.name,
         "ledger": snap.path,
         "entries": len(snap.entries),
@@ -43,6 +44,9 @@ def status(snap: Snapshot) -> dict[str, Any]:
         "warnings": list(snap.warnings),
         "caution": CAUTION,
     }
+    # Last, so that any low bounds already in the status (dv_free_low_m_s) give the low-bound dates too.
+    out["forecast"] = forecast(snap, out)
+    return out
 
 
 def plan_row(p) -> dict[str, Any]:

@@ -103,3 +103,29 @@ def two_shifts(geo_ledger, fake_clock):
     t2 = t1 + 8 * HOUR
     c.at(t2)
     return SimpleNamespace(ledger=led, clock=c, t0=T0, t1=t1, t2=t2, first=first)
+
+
+@pytest.fixture
+def optional_sections(monkeypatch):
+    """Status and check dicts as the uncertainty, approval and gauging work will extend them (keys only)."""
+    from ledger.services import views
+
+    real_status, real_check = views.status, views.check
+
+    def status_plus(snap):
+        s = real_status(snap)
+        s["confidence"] = 0.99
+        for t in s["tanks"].values():
+            t["usable_low_kg"] = t["usable_kg"] - 2.0
+            t["gauge"] = {"method": "PVT", "gauged_kg": 210.5, "difference_kg": -0.25}
+        for e in s["engines"].values():
+            e["dv_free_low_m_s"] = e["dv_free_m_s"] - 45.6
+        for p in s["pending_plans"]:
+            p["approval"] = "approved"
+        return s
+
+    def check_plus(*args, **kwargs):
+        return dict(real_check(*args, **kwargs), verdict="marginal", probability=0.97)
+
+    monkeypatch.setattr(views, "status", status_plus)
+    monkeypatch.setattr(views, "check", check_plus)

@@ -9,7 +9,7 @@ import pytest
 
 from ledger.core.craft import G0
 from ledger.errors import InputError, StoreError
-from ledger.services import handover, views
+from ledger.services import handover
 from ledger.services.timefmt import iso
 
 # Rocket equation (Sutton & Biblarz, Rocket Propulsion Elements, ch. 2-4; FIELD.md section 1, from memory):
@@ -110,27 +110,7 @@ def test_each_pending_plan_is_checked_after_the_others_but_not_itself(two_shifts
     assert plans[4]["overdue"] is False
 
 
-def test_optional_sections_appear_when_the_status_carries_them(two_shifts, monkeypatch):
-    real_status, real_check = views.status, views.check
-
-    def status_plus(snap):
-        s = real_status(snap)
-        s["confidence"] = 0.99
-        for t in s["tanks"].values():
-            t["usable_low_kg"] = t["usable_kg"] - 2.0
-            t["gauge"] = {"method": "PVT", "gauged_kg": 210.5, "difference_kg": -0.25}
-        for e in s["engines"].values():
-            e["dv_free_low_m_s"] = e["dv_free_m_s"] - 45.6
-        for p in s["pending_plans"]:
-            p["approval"] = "approved"
-        return s
-
-    def check_plus(*args, **kwargs):
-        out = real_check(*args, **kwargs)
-        return dict(out, verdict="marginal", probability=0.97)
-
-    monkeypatch.setattr(views, "status", status_plus)
-    monkeypatch.setattr(views, "check", check_plus)
+def test_optional_sections_appear_when_the_status_carries_them(two_shifts, optional_sections):
     report = handover.assemble(two_shifts.ledger, from_name="Bo", to_name="Cy")
     assert report["state"]["confidence"] == 0.99
     assert all("usable_low_kg" in t for t in report["state"]["tanks"])

@@ -101,6 +101,9 @@ def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, sinc
     end = clock() if now is None else float(now)
     snap = ledger.snapshot()
     head_seq, head_hash = ledger.file.head()
+    if head_seq != len(snap.entries):  # another process appended between the two reads: read both again
+        snap = ledger.snapshot()
+        head_seq, head_hash = ledger.file.head()
     status = views.status(snap)
     win = window(snap, since, end)
     prev = win["previous"]["id"] if win["previous"] else None

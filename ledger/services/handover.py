@@ -148,5 +148,6 @@ def record(ledger: Ledger, report: dict[str, Any], *, note: str | None = None) -
     backup = _backup(ledger.path)
     report["record"] = {"recorded": True, "entry": stored["seq"], "hash": stored["hash"],
                         "backup": backup["backup"], "backup_failed": backup["failed"]}
-    report["warnings"] = list(report["warnings"]) + list(new_warnings) + ([backup["warning"]] if backup["warning"] else [])
+    extra = [backup["warning"]] if backup["warning"] else []
+    report["warnings"] = list(report["warnings"]) + list(new_warnings) + extra
     return report

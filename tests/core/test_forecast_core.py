@@ -67,7 +67,8 @@ def test_routine_lines_for_one_engine_add_up():
 
 def test_shared_tanks_are_named():
     tanks = (Tank("ox", "MON-3", 100.0), Tank("fuel", "MMH", 60.0), Tank("xe", "Xe", 50.0))
-    engines = (Engine("a", 290.0, 10.0, {"ox": 1.65, "fuel": 1.0}), Engine("b", 318.0, 440.0, {"ox": 1.65, "fuel": 1.0}),
+    engines = (Engine("a", 290.0, 10.0, {"ox": 1.65, "fuel": 1.0}),
+               Engine("b", 318.0, 440.0, {"ox": 1.65, "fuel": 1.0}),
                Engine("hall", 1600.0, 0.09, {"xe": 1.0}))
     craft = Craft("c", 1000.0, tanks, engines)
     assert fc.shared_tanks(craft, ["a", "b", "hall"]) == [("a", "b", ("ox", "fuel"))]

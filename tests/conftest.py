@@ -129,3 +129,21 @@ def optional_sections(monkeypatch):
 
     monkeypatch.setattr(views, "status", status_plus)
     monkeypatch.setattr(views, "check", check_plus)
+
+
+@pytest.fixture
+def fake_backup(monkeypatch):
+    """A stand-in for ledger.store.backup (the integrity work): records the calls, writes nothing."""
+    import sys
+    import types
+
+    calls = []
+
+    def make_backup(ledger_path, *, keep=None):
+        calls.append(ledger_path)
+        return ledger_path + ".backup-test"
+
+    module = types.ModuleType("ledger.store.backup")
+    module.make_backup = make_backup
+    monkeypatch.setitem(sys.modules, "ledger.store.backup", module)
+    return calls

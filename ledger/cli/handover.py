@@ -12,7 +12,7 @@ import tempfile
 
 from ..errors import InputError, StoreError
 from ..services import handover
-from .common import console, esc, open_ledger
+from .common import open_ledger, warn
 
 FORMATS = ("text", "md", "html", "json")
 EXIT_BACKUP_FAILED = 1
@@ -84,11 +84,9 @@ def cmd_handover(args) -> int:
         except OSError as exc:
             done = f"handover recorded as entry {rec['entry']}, but " if rec.get("recorded") else ""
             raise StoreError(f"{done}writing {out} failed: {exc.strerror or exc}") from None
-    err = console(stderr=True)
-    if rec.get("recorded"):
-        err.print(f"recorded handover entry {rec['entry']}; backup: {esc(rec.get('backup') or 'none')}")
+    if rec.get("recorded"):  # plain print: a path must stay whole on one line
+        print(f"recorded handover entry {rec['entry']}; backup: {rec.get('backup') or 'none'}", file=sys.stderr)
     if out is not None:
-        err.print(f"wrote {esc(out)}")
-    for w in report["warnings"]:
-        err.print(f"[bold yellow]warning:[/] {esc(w)}")
+        print(f"wrote {out}", file=sys.stderr)
+    warn(report["warnings"])
     return EXIT_BACKUP_FAILED if rec.get("backup_failed") else 0

@@ -3,17 +3,11 @@ from __future__ import annotations
 
 import json
 import os
-import sys
 
 import pytest
 
 from ledger.cli import main
 from ledger.services.timefmt import iso
-
-
-@pytest.fixture
-def no_backup_module(monkeypatch):
-    monkeypatch.setitem(sys.modules, "ledger.store.backup", None)
 
 
 def _bytes(path: str) -> bytes:
@@ -32,13 +26,13 @@ def test_preview_prints_the_report_and_writes_nothing(two_shifts, capsys):
     assert max(len(line) for line in out.out.splitlines()) <= 80
 
 
-def test_recording_appends_the_entry_and_warns_about_the_backup(two_shifts, capsys, no_backup_module):
+def test_recording_appends_the_entry_and_writes_a_backup(two_shifts, capsys, fake_backup):
     path = two_shifts.ledger.path
     rc = main(["--ledger", path, "handover", "--from", "Bo", "--to", "Cy", "--format", "json", "--note", "quiet"])
     out = capsys.readouterr()
     report = json.loads(out.out)
     assert rc == 0 and report["record"]["entry"] == 9
-    assert "recorded handover entry 9" in out.err and "backup module not available" in out.err
+    assert f"recorded handover entry 9; backup: {path}.backup-test" in out.err and fake_backup == [path]
     last = two_shifts.ledger.file.records()[-1]
     assert last["kind"] == "handover" and last["note"] == "quiet" and last["by"] == "Bo"
     # "--since last" now starts at this handover.
@@ -47,7 +41,7 @@ def test_recording_appends_the_entry_and_warns_about_the_backup(two_shifts, caps
     assert json.loads(capsys.readouterr().out)["window"]["start"] == iso(two_shifts.t2)
 
 
-def test_html_to_a_file(two_shifts, tmp_path, capsys, no_backup_module):
+def test_html_to_a_file(two_shifts, tmp_path, capsys, fake_backup):
     target = tmp_path / "handover.html"
     rc = main(["--ledger", two_shifts.ledger.path, "handover", "--from", "Bo", "--to", "Cy", "--format", "html",
                "--out", str(target)])

@@ -102,7 +102,8 @@ def _others(r: Mapping[str, Any]) -> list[Block]:
 
 def _state(r: Mapping[str, Any]) -> list[Block]:
     s = r["state"]
-    text = f"Mass {num(s['mass_kg'])} kg (dry {num(s['dry_mass_kg'])} kg) after the last event, {when(s['as_of'])} UTC."
+    after = f"after the last event, {when(s['as_of'])} UTC" if s.get("as_of") else "as loaded (no event recorded yet)"
+    text = f"Mass {num(s['mass_kg'])} kg (dry {num(s['dry_mass_kg'])} kg) {after}."
     if s.get("confidence") is not None:
         text += f" Low bounds{pct(s['confidence'])}."
     out = [Block("heading", "State now"), Block("para", text)]

@@ -78,3 +78,14 @@ def test_sample_indices_keep_both_ends():
     idx = fc.sample_indices(10_000, 400)
     assert idx[0] == 0 and idx[-1] == 9_999 and len(idx) <= 400
     assert list(fc.sample_indices(5, 400)) == [0, 1, 2, 3, 4]
+
+
+def test_forecast_core_stays_pure():
+    # DESIGN.md: the core imports no UI, storage, unit or plotting library.
+    import subprocess
+    import sys
+
+    code = ("import sys, ledger.core.forecast; "
+            "print(sorted(m for m in ('textual', 'rich', 'tinydb', 'pint', 'CoolProp', 'matplotlib') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"

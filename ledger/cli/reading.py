@@ -66,9 +66,30 @@ def print_status(data: dict) -> None:
     if data["pending_plans"]:
         out.print("Pending plans: " + "; ".join(
             f"#{p['id']} {esc(p['engine'])} {p['dv_m_s']:.3f} m/s at {p['at']}" for p in data["pending_plans"]))
+    for line in forecast_lines(data.get("forecast") or {}):
+        out.print(line)
     for w in data["warnings"]:
         out.print(f"[bold yellow]warning:[/] {esc(w)}")
     out.print(f"[dim]{esc(data['caution'])}[/]")
+
+
+def forecast_lines(fc: dict) -> list[str]:
+    """One rich line per routine engine: the date dv free runs out at its routine rate (and the low bound)."""
+    lines = []
+    for row in fc.get("engines", []):
+        when = row["runs_out"][:10] if row["runs_out"] else "beyond the horizon"
+        years = f" ({row['years_left']:.1f} yr)" if row["years_left"] is not None else ""
+        text = (f"Lifetime: {esc(row['engine'])} at {row['dv_per_year_m_s']:.2f} m/s/yr runs out of dv free "
+                f"[bold]{when}[/]{years}")
+        low = row.get("low")
+        if low:
+            conf = fc.get("confidence")
+            level = f" at {100 * conf:g}%" if isinstance(conf, (int, float)) else ""
+            text += f"; low bound{level} {low['runs_out'][:10] if low['runs_out'] else 'beyond the horizon'}"
+        lines.append(text + f" [dim](from {fc['reference'][:10]}, {esc(fc['reference_basis'])})[/]")
+    for note in fc.get("notes", []) if fc.get("engines") else []:
+        lines.append(f"[dim]forecast: {esc(note)}[/]")
+    return lines
 
 
 def cmd_check(args) -> int:

@@ -12,7 +12,10 @@ from typing import Any, Iterable, Mapping, NamedTuple
 import numpy as np
 
 BURN, PLAN, MASS, USE, WITHDRAW, CORRECT = "burn", "plan", "mass", "use", "withdraw", "correct"
-KINDS = (BURN, PLAN, MASS, USE, WITHDRAW, CORRECT)
+HANDOVER = "handover"
+"""A shift handover: who handed over to whom and the window covered (data: from, to, window_start,
+window_end in POSIX seconds). It changes no state; it marks where the next "since last" window starts."""
+KINDS = (BURN, PLAN, MASS, USE, WITHDRAW, CORRECT, HANDOVER)
 PROPULSIVE = (BURN, USE)
 EVENT_KINDS = frozenset((BURN, USE, MASS))
 AMOUNT_FIELDS = ("dv", "duration", "propellant")

@@ -7,7 +7,7 @@ from datetime import datetime
 from typing import Any, Mapping
 
 from ..core.craft import Craft
-from ..core.entries import AMOUNT_FIELDS, BURN, CORRECT, MASS, PLAN, USE, WITHDRAW, Entry, Resolved
+from ..core.entries import AMOUNT_FIELDS, BURN, CORRECT, HANDOVER, MASS, PLAN, USE, WITHDRAW, Entry, Resolved
 from ..errors import InputError
 from .timefmt import iso, parse_time
 
@@ -105,7 +105,25 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
         return {"delta": delta}
     if kind == WITHDRAW:
         return {"plan": _plan_ref(resolved, data.get("plan"), "a withdrawal")}
+    if kind == HANDOVER:
+        return _handover(data)
     raise InputError(f"unknown entry kind '{kind}'")
+
+
+def _handover(data: Mapping[str, Any]) -> dict[str, Any]:
+    """Both names are required (a handover nobody signed is worth nothing); the window must run forwards."""
+    out: dict[str, Any] = {}
+    for key in ("from", "to"):
+        name = clean_text(data.get(key), f"--{key}")
+        if not name:
+            raise InputError(f"handover: --{key} is required (the name of the engineer)")
+        out[key] = name
+    start = _finite(data.get("window_start"), "--since")
+    end = _finite(data.get("window_end"), "handover window end")
+    if start > end:
+        raise InputError("--since: the window starts after it ends (a time in the future?)")
+    out.update(window_start=start, window_end=end)
+    return out
 
 
 def make_record(kind: str, at: float, recorded: float, by: str | None, note: str | None,

@@ -4,12 +4,15 @@ from __future__ import annotations
 from typing import Any
 
 from ..core import capability as cap
-from ..core.entries import BURN, CORRECT, MASS, PLAN, USE, WITHDRAW
+from ..core.entries import BURN, CORRECT, HANDOVER, MASS, PLAN, USE, WITHDRAW
+from .forecast import forecast
 from .ledger import Snapshot
 from .timefmt import iso
 
 CAUTION = ("Decision support only: verify every figure against the mission's flight-dynamics system of record, "
            "its mission rules and the responsible engineers before acting.")
+LATE_AFTER_S = 3600.0
+"""An executed event recorded more than this long after it happened is marked as logged late."""
 
 
 def status(snap: Snapshot) -> dict[str, Any]:
@@ -18,7 +21,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
     reserves = []
     for r in craft.reserves:
         reserves.append({"id": r.id, "engine": r.engine, "dv_m_s": r.dv_m_s})
-    return {
+    out = {
         "craft": craft.name,
         "ledger": snap.path,
         "entries": len(snap.entries),
@@ -41,18 +44,23 @@ def status(snap: Snapshot) -> dict[str, Any]:
         "warnings": list(snap.warnings),
         "caution": CAUTION,
     }
+    # Last, so that any low bounds already in the status (dv_free_low_m_s) give the low-bound dates too.
+    out["forecast"] = forecast(snap, out)
+    return out
 
 
 def plan_row(p) -> dict[str, Any]:
     return {"id": p.seq, "engine": p.get("engine"), "dv_m_s": p.get("dv"), "at": iso(p.at), "by": p.by, "note": p.note}
 
 
-def commitments(snap: Snapshot) -> list[tuple[str, float]]:
-    return [(p.get("engine"), float(p.get("dv"))) for p in snap.resolved.pending]
+def commitments(snap: Snapshot, exclude_plan: int | None = None) -> list[tuple[str, float]]:
+    """Pending plans as (engine, dv), less ``exclude_plan`` when that plan is the burn being checked."""
+    return [(p.get("engine"), float(p.get("dv"))) for p in snap.resolved.pending if p.seq != exclude_plan]
 
 
-def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True) -> dict[str, Any]:
-    res = cap.check(snap.craft, snap.state, engine, dv, commitments(snap) if include_pending else [])
+def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
+          exclude_plan: int | None = None) -> dict[str, Any]:
+    res = cap.check(snap.craft, snap.state, engine, dv, commitments(snap, exclude_plan) if include_pending else [])
     return {
         "engine": res.engine, "dv_m_s": res.dv_m_s,
         "verdict": "feasible" if res.feasible else "infeasible",
@@ -64,7 +72,8 @@ def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True) 
     }
 
 
-KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "WDRAW", CORRECT: "CORR"}
+KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "WDRAW", CORRECT: "CORR",
+              HANDOVER: "HANDOVER"}
 
 
 def _amount(data) -> str:
@@ -76,6 +85,8 @@ def _amount(data) -> str:
         return f"{data['propellant']:.4f} kg"
     if data.get("delta") is not None:
         return f"{data['delta']:+.3f} kg"
+    if data.get("from") is not None:
+        return f"{data['from']} -> {data.get('to', '')}"
     return ""
 
 
@@ -120,7 +131,7 @@ def log(snap: Snapshot) -> list[dict[str, Any]]:
             key_seq = e.seq
         row.update(at=iso(shown.at), note=shown.note if e.kind != CORRECT else e.note,
                    engine=shown.get("engine"), amount=_amount(shown.data))
-        row["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > 3600.0
+        row["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > LATE_AFTER_S
         if shown.get("plan") is not None and e.kind != CORRECT:
             row["plan"] = shown.get("plan")
         if e.kind == PLAN:

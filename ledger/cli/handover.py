@@ -1,0 +1,92 @@
+"""``propledger handover``: the shift handover report; by default also records it and writes a backup.
+
+The report goes to standard output (or --out); what was recorded and any warning go to standard error,
+so the report can be piped or redirected whole. Bad options fail before anything is written.
+"""
+from __future__ import annotations
+
+import json
+import os
+import sys
+import tempfile
+
+from ..errors import InputError, StoreError
+from ..services import handover
+from .common import open_ledger, warn
+
+FORMATS = ("text", "md", "html", "json")
+EXIT_BACKUP_FAILED = 1
+
+
+def register(sub) -> None:
+    p = sub.add_parser("handover", help="shift handover report (records a handover entry and a backup)")
+    p.add_argument("--from", dest="from_name", required=True, metavar="NAME", help="outgoing engineer")
+    p.add_argument("--to", dest="to_name", required=True, metavar="NAME", help="incoming engineer")
+    p.add_argument("--since", metavar="TIME|last",
+                   help="window start: ISO 8601 time, or 'last' for the previous handover (the default)")
+    p.add_argument("--format", choices=FORMATS, default="text", help="text (80 columns), md, html or json")
+    p.add_argument("--out", metavar="FILE", help="write the report to FILE (default: standard output)")
+    p.add_argument("--no-record", action="store_true",
+                   help="preview only: append no handover entry and write no backup")
+    p.add_argument("--note", help="free text kept with the handover entry")
+    p.set_defaults(func=cmd_handover)
+
+
+def _out_path(path: str | None) -> str | None:
+    if path is None:
+        return None
+    path = os.path.abspath(path)
+    folder = os.path.dirname(path)
+    if not os.path.isdir(folder):
+        raise InputError(f"--out: folder {folder} does not exist")
+    if os.path.isdir(path):
+        raise InputError(f"--out: {path} is a folder")
+    return path
+
+
+def _write(path: str, text: str) -> None:
+    """Whole file or nothing: temporary file in the same folder, fsync, rename."""
+    fd, tmp = tempfile.mkstemp(prefix=".handover-", dir=os.path.dirname(path))
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def render(report: dict, fmt: str) -> str:
+    if fmt == "json":
+        return json.dumps(report, indent=2, allow_nan=False, default=str) + "\n"
+    from ..reports import render as render_report  # noqa: PLC0415 - reports only when asked for
+
+    return render_report(report, fmt)
+
+
+def cmd_handover(args) -> int:
+    led = open_ledger(args)
+    report = handover.assemble(led, from_name=args.from_name, to_name=args.to_name, since=args.since)
+    out = _out_path(args.out)
+    if not args.no_record:
+        handover.record(led, report, note=args.note)
+    text = render(report, args.format)
+    rec = report["record"]
+    if out is None:
+        sys.stdout.write(text)
+        sys.stdout.flush()
+    else:
+        try:
+            _write(out, text)
+        except OSError as exc:
+            done = f"handover recorded as entry {rec['entry']}, but " if rec.get("recorded") else ""
+            raise StoreError(f"{done}writing {out} failed: {exc.strerror or exc}") from None
+    if rec.get("recorded"):  # plain print: a path must stay whole on one line
+        print(f"recorded handover entry {rec['entry']}; backup: {rec.get('backup') or 'none'}", file=sys.stderr)
+    if out is not None:
+        print(f"wrote {out}", file=sys.stderr)
+    warn(report["warnings"])
+    return EXIT_BACKUP_FAILED if rec.get("backup_failed") else 0

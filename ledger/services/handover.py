@@ -1,0 +1,153 @@
+"""Shift handover: what the incoming engineer needs, assembled once as a plain dict.
+
+The text, Markdown and HTML reports only render this dict, so all three (and the console) say the same
+thing. Optional sections (uncertainty, approval, gauging) appear whenever the status or check dicts carry
+their keys. Recording appends a ``handover`` entry (so the next "since last" window starts where this one
+ended) and then writes a backup that holds it.
+"""
+from __future__ import annotations
+
+from typing import Any, Mapping
+
+from ..core.entries import HANDOVER, Entry
+from ..errors import InputError, LedgerError
+from . import views
+from .forecast import forecast
+from .handover_rows import entry_rows
+from .ledger import Ledger, Snapshot
+from .records import clean_text
+from .timefmt import iso, now as clock, parse_time
+
+RATIO_TOLERANCE = 0.05
+"""Achieved/planned outside 1 ± 5% is flagged: the margin usually held on accurately computed manoeuvres
+(ESA SRE-PA/2011.097, via FIELD.md section 5)."""
+SINCE_LAST = "last"
+
+
+def previous_handover(snap: Snapshot) -> Entry | None:
+    found = [e for e in snap.entries if e.kind == HANDOVER]
+    return found[-1] if found else None
+
+
+def window(snap: Snapshot, since: str | float | None, end: float) -> dict[str, Any]:
+    """(start, end] of the handover: since the previous handover (or the ledger's creation), or a given time."""
+    prev = previous_handover(snap)
+    previous = None
+    if prev is not None:
+        previous = {"id": prev.seq, "from": prev.get("from"), "to": prev.get("to"), "at": iso(prev.at)}
+    if since is None or (isinstance(since, str) and since.strip().lower() == SINCE_LAST):
+        if prev is not None:
+            start = float(prev.get("window_end", prev.at))
+            basis = f"since handover #{prev.seq} ({prev.get('from')} to {prev.get('to')})"
+        else:
+            start = parse_time(snap.meta.get("created"), "ledger creation time")
+            basis = "since the ledger was created (no earlier handover)"
+    else:
+        start = parse_time(since, "--since")
+        basis = "since the time given"
+    if start > end:
+        raise InputError(f"--since: {iso(start)} is after the end of the window ({iso(end)})")
+    return {"start": iso(start), "end": iso(end), "start_t": start, "end_t": end, "basis": basis,
+            "previous": previous}
+
+
+def _flat(value: Any) -> str:
+    """A gauge comparison of unknown shape as one readable line (numbers to 6 significant figures)."""
+    if isinstance(value, Mapping):
+        return "; ".join(f"{str(k).replace('_', ' ')} {_flat(v)}" for k, v in value.items())
+    if isinstance(value, (list, tuple)):
+        return ", ".join(_flat(v) for v in value)
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    return str(value)
+
+
+def _state(status: Mapping[str, Any]) -> dict[str, Any]:
+    tanks = [dict(t, id=tid) for tid, t in status["tanks"].items()]
+    for t in tanks:
+        t.pop("gauge", None)
+    return {"mass_kg": status["mass_kg"], "dry_mass_kg": status["dry_mass_kg"], "as_of": status.get("as_of"),
+            "confidence": status.get("confidence"), "tanks": tanks,
+            "engines": [dict(e, id=eid) for eid, e in status["engines"].items()],
+            "reserves": list(status.get("reserves", []))}
+
+
+def _plans(snap: Snapshot, status: Mapping[str, Any], end: float) -> tuple[list[dict[str, Any]], list[str]]:
+    """Each pending plan with a fresh check: the other pending plans flown first, never the plan itself."""
+    rows, warnings = [], []
+    for p in status.get("pending_plans", []):
+        row = dict(p)
+        res = views.check(snap, p["engine"], float(p["dv_m_s"]), exclude_plan=int(p["id"]))
+        row["check"] = {k: res.get(k) for k in ("verdict", "reason", "propellant_kg", "dv_free_after_m_s",
+                                                "limiting_tank", "probability") if k in res}
+        row["check"]["commitments"] = len(res.get("commitments", []))
+        row["overdue"] = parse_time(p["at"], "plan time") < end
+        if row["overdue"]:
+            warnings.append(f"plan #{p['id']} was due at {p['at']} and is neither executed nor withdrawn")
+        if res.get("verdict") == "infeasible":
+            warnings.append(f"plan #{p['id']} fails its check: {res.get('reason')}")
+        rows.append(row)
+    return rows, warnings
+
+
+def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, since: str | float | None = None,
+             now: float | None = None) -> dict[str, Any]:
+    """The handover as plain data; reads only. ``now`` closes the window (default: the clock)."""
+    names = {}
+    for key, value in (("from", from_name), ("to", to_name)):
+        names[key] = clean_text(value, f"--{key}")
+        if not names[key]:
+            raise InputError(f"handover: --{key} is required (the name of the engineer)")
+    end = clock() if now is None else float(now)
+    snap = ledger.snapshot()
+    head_seq, head_hash = ledger.file.head()
+    if head_seq != len(snap.entries):  # another process appended between the two reads: read both again
+        snap = ledger.snapshot()
+        head_seq, head_hash = ledger.file.head()
+    status = views.status(snap)
+    win = window(snap, since, end)
+    prev = win["previous"]["id"] if win["previous"] else None
+    burns, others = entry_rows(snap, win["start_t"], end, skip=prev)
+    plans, plan_warnings = _plans(snap, status, end)
+    warnings = list(status["warnings"]) + plan_warnings
+    for b in burns:
+        if b["ratio"] is not None and abs(b["ratio"] - 1.0) > RATIO_TOLERANCE:
+            warnings.append(f"burn #{b['id']} achieved {100 * b['ratio']:.1f}% of plan #{b['plan']}")
+    gauge = [{"tank": tid, "summary": _flat(t["gauge"]), "data": t["gauge"]}
+             for tid, t in status["tanks"].items() if t.get("gauge")]
+    return {
+        "title": "Shift handover", "craft": snap.craft.name, "ledger": snap.path, "generated": iso(round(end)),
+        "from": names["from"], "to": names["to"], "window": win,
+        "burns": burns, "other_entries": others, "state": _state(status),
+        "forecast": forecast(snap, status, now=end, series=True),
+        "plans": plans, "gauge": gauge, "warnings": warnings,
+        "integrity": {"status": status["integrity"], "intact": snap.integrity is None,
+                      "entries": len(snap.entries), "head_seq": head_seq, "head_hash": head_hash},
+        "record": {"recorded": False},
+        "caution": views.CAUTION,
+    }
+
+
+def _backup(path: str) -> dict[str, Any]:
+    """Write a backup through the integrity work's ``make_backup``: its path, or a warning saying why not."""
+    try:
+        from ..store.backup import make_backup  # noqa: PLC0415 - only when a handover is recorded
+    except ImportError:  # MERGE GUARD: remove once ledger.store.backup is merged
+        return {"backup": None, "failed": False, "warning": "backup module not available"}
+    try:
+        return {"backup": make_backup(path), "failed": False, "warning": None}
+    except (LedgerError, OSError) as exc:
+        return {"backup": None, "failed": True, "warning": f"BACKUP FAILED after recording the handover: {exc}"}
+
+
+def record(ledger: Ledger, report: dict[str, Any], *, note: str | None = None) -> dict[str, Any]:
+    """Append the handover entry, then back the ledger up; the report gains a ``record`` section."""
+    win = report["window"]
+    data = {"from": report["from"], "to": report["to"], "window_start": win["start_t"], "window_end": win["end_t"]}
+    stored, new_warnings = ledger.record(HANDOVER, data, at=win["end_t"], by=report["from"], note=note)
+    backup = _backup(ledger.path)
+    report["record"] = {"recorded": True, "entry": stored["seq"], "hash": stored["hash"],
+                        "backup": backup["backup"], "backup_failed": backup["failed"]}
+    extra = [backup["warning"]] if backup["warning"] else []
+    report["warnings"] = list(report["warnings"]) + list(new_warnings) + extra
+    return report

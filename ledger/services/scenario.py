@@ -9,7 +9,7 @@ from __future__ import annotations
 import os
 from typing import Any
 
-from ..core.entries import BURN, MASS, PLAN, USE, WITHDRAW, resolve
+from ..core.entries import BURN, HANDOVER, MASS, PLAN, USE, WITHDRAW, resolve
 from ..errors import InputError
 from ..units import parse_quantity
 from .craftfile import craft_from_document, load_yaml
@@ -50,13 +50,20 @@ def load_history(doc: dict[str, Any], src: str, craft) -> list[dict[str, Any]]:
     records: list[dict[str, Any]] = []
     entries = []
     refs: dict[str, int] = {}
+    last_handover = parse_time(doc["history"][0]["at"], f"{src}: history[0].at") if doc.get("history") else 0.0
     for i, item in enumerate(doc.get("history") or []):
         where = f"{src}: history[{i}]"
-        if not isinstance(item, dict) or item.get("kind") not in (BURN, PLAN, MASS, USE, WITHDRAW):
-            raise InputError(f"{where}: expected a mapping with kind burn, plan, mass, use or withdraw")
+        if not isinstance(item, dict) or item.get("kind") not in (BURN, PLAN, MASS, USE, WITHDRAW, HANDOVER):
+            raise InputError(f"{where}: expected a mapping with kind burn, plan, mass, use, withdraw or handover")
         kind = item["kind"]
         at = parse_time(item.get("at", "now"), f"{where}.at")
-        data = _item_data(item, where, refs)
+        if kind == HANDOVER:
+            # A past shift change, so the demo's next handover covers one shift, not the whole history.
+            start = parse_time(item["since"], f"{where}.since") if item.get("since") else last_handover
+            data = {"from": item.get("from"), "to": item.get("to"), "window_start": start, "window_end": at}
+            last_handover = at
+        else:
+            data = _item_data(item, where, refs)
         repeat = int(item.get("repeat", 1))
         every = parse_quantity(item["every"], "time", f"{where}.every") if repeat > 1 else 0.0
         for k in range(repeat):

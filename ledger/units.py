@@ -61,6 +61,8 @@ def parse_quantity(value: Any, dimension: str, where: str, *, signed: bool = Fal
     if isinstance(value, bool) or value is None:
         raise InputError(f"{where}: expected a {dimension} (a number in {base} or text like '12 {base}'), got {value!r}")
     if isinstance(value, (int, float)):
+        if isinstance(value, int) and abs(value) > 10**300:
+            raise InputError(f"{where}: the number is out of range")
         number, unit = float(value), ""
     elif isinstance(value, str):
         m = _NUMBER.match(value)

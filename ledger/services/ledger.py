@@ -113,8 +113,8 @@ class Ledger:
 
     @staticmethod
     def _new_warnings(before: Snapshot, after: Snapshot) -> list[str]:
-        """Warnings the write raised, plus a broken chain every time (it must not scroll out of sight)."""
-        return [w for w in after.warnings if w not in before.warnings or w.startswith("INTEGRITY")]
+        """Warnings the write raised."""
+        return [w for w in after.warnings if w not in before.warnings]
 
     # --- writing -------------------------------------------------------------------------------
     def record(self, kind: str, data: Mapping[str, Any], *, at: float | None = None, by: str | None = None,
@@ -124,12 +124,20 @@ class Ledger:
         if kind == PLAN and at is None:
             raise InputError("plan: --at is required (the planned time of the burn)")
         with self.file.locked():  # validate against the ledger as it is when the entry is appended
-            snap = self.snapshot() if snap is None or self._stale(snap) else snap
+            snap = self._writable(snap)
             payload = validate_data(snap.craft, snap.resolved, kind, data)
             t = now() if at is None else at
             rec = make_record(kind, t, now(), by, note, payload)
             stored = self.file.append(rec)
         return stored, self._new_warnings(snap, self.snapshot())
+
+    def _writable(self, snap: Snapshot | None) -> Snapshot:
+        """A current snapshot (call under the lock); refuses to add to a ledger whose chain does not verify."""
+        snap = self.snapshot() if snap is None or self._stale(snap) else snap
+        if snap.integrity is not None:
+            raise StoreError(f"{self.path}: {snap.integrity}; not recording onto a ledger whose chain does not "
+                             f"verify. {self.file.hint()}")
+        return snap
 
     def _stale(self, snap: Snapshot) -> bool:
         last = snap.entries[-1].seq if snap.entries else 0
@@ -149,7 +157,7 @@ class Ledger:
         if not clean_text(reason, "--reason"):
             raise InputError("correct: --reason is required (why the entry was wrong)")
         with self.file.locked():
-            snap = self.snapshot() if snap is None or self._stale(snap) else snap
+            snap = self._writable(snap)
             by_seq = {e.seq: e for e in snap.entries}
             if seq not in by_seq:
                 raise InputError(f"--entry: no entry {seq} in this ledger")

@@ -143,11 +143,16 @@ def make_backup(ledger_path: str, *, keep: int | None = None) -> str:
             os.makedirs(folder, mode=0o700, exist_ok=True)
         except OSError as exc:
             raise StoreError(f"{folder}: cannot create the backup folder ({exc.strerror or exc})") from None
+        durable.clean_temporaries(folder, whole_folder=True)
         now = datetime.now(timezone.utc)
         dest = _unique(folder, "backup-" + now.strftime("%Y%m%dT%H%M%S.%fZ"), ".json")
         durable.write_bytes(dest, raw, exclusive=True)
         seq, h = head_of(doc)
-        write_heads(path, seq, h, meta["hash"], now.strftime("%Y-%m-%dT%H:%M:%S.%fZ"))
+        try:
+            write_heads(path, seq, h, meta["hash"], now.strftime("%Y-%m-%dT%H:%M:%S.%fZ"))
+        except BaseException:
+            os.unlink(dest)  # not acknowledged: no new backup either
+            raise
         for old in list_backups(path)[n:]:
             try:
                 os.unlink(old)

@@ -70,10 +70,14 @@ def _tmp_pattern(path: str) -> re.Pattern[str]:
     return re.compile(re.escape(_tmp_prefix(path)) + r"[A-Za-z0-9_]{8}" + re.escape(TMP_SUFFIX) + "$")
 
 
-def clean_temporaries(path: str) -> int:
-    """Remove temporary files a killed writer left for ``path`` (call under the ledger lock)."""
-    folder = os.path.dirname(os.path.abspath(path))
-    pattern = _tmp_pattern(path)
+_ANY_TMP = re.compile(r"^\..+\.[A-Za-z0-9_]{8}" + re.escape(TMP_SUFFIX) + "$")
+
+
+def clean_temporaries(path: str, *, whole_folder: bool = False) -> int:
+    """Remove temporary files a killed writer left for ``path`` (call under the ledger lock); with
+    ``whole_folder``, every propledger temporary in the folder ``path`` (a folder only this ledger uses)."""
+    folder = path if whole_folder else os.path.dirname(os.path.abspath(path))
+    pattern = _ANY_TMP if whole_folder else _tmp_pattern(path)
     n = 0
     try:
         names = os.listdir(folder)

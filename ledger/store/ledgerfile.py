@@ -190,7 +190,8 @@ class LedgerFile:
     def append_many(self, records: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
         """Append several entries in one durable write (all or none), e.g. when a scenario is loaded."""
         with self.locked():
-            durable.clean_temporaries(self.path)
+            for p in (self.path, *head_paths(self.path)):
+                durable.clean_temporaries(p)
             seq, prev = head_of(self.document())
             host, program = socket.gethostname(), f"propledger {__version__}"
             stored_all = []

@@ -127,7 +127,7 @@ class Ledger:
             snap = self._writable(snap)
             payload = validate_data(snap.craft, snap.resolved, kind, data)
             t = now() if at is None else at
-            rec = make_record(kind, t, now(), by, note, payload)
+            rec = _readable(make_record(kind, t, now(), by, note, payload))
             stored = self.file.append(rec)
         return stored, self._new_warnings(snap, self.snapshot())
 
@@ -178,8 +178,17 @@ class Ledger:
             payload = {"entry": seq, "changes": dict(changes), "reason": clean_text(reason, "--reason")}
             rec = make_record(CORRECT, now(), now(), by, None, payload)
             rec["at"] = rec["recorded"]
-            stored = self.file.append(rec)
+            stored = self.file.append(_readable(rec))
         return stored, self._new_warnings(snap, self.snapshot())
+
+
+def _readable(rec: dict[str, Any]) -> dict[str, Any]:
+    """The record, once it is known to read back as an entry (a record that cannot is never written)."""
+    try:
+        entry_from_record(dict(rec, seq=0))
+    except (InputError, KeyError, TypeError, ValueError) as exc:
+        raise InputError(f"{rec.get('kind')}: the entry would not read back ({exc}); nothing was recorded") from None
+    return rec
 
 
 def resolve_path(path: str | None) -> str:

@@ -115,11 +115,21 @@ class LedgerFile:
                 raise StoreError(f"{path}: already exists; refusing to overwrite it")
             traces = [p for p in (*head_paths(path), backup_folder(path)) if os.path.lexists(p)]
             if traces:
+                from .backup import restore_command  # noqa: PLC0415 - backup imports this module
+
                 raise StoreError(f"{path}: no ledger file here, but {traces[-1]} belongs to a ledger at this path; "
-                                 f"restore it with 'propledger --ledger {path} restore', or move the head record and "
+                                 f"restore it with '{restore_command(path)}', or move the head record and "
                                  "backups aside to start a new ledger here")
             durable.write_document(path, {META: {"1": meta}, ENTRIES: {}}, exclusive=True)
-            write_heads(path, 0, meta["hash"], meta["hash"], created)
+            try:
+                write_heads(path, 0, meta["hash"], meta["hash"], created)
+            except BaseException:  # not created after all: leave no trace that would block the next attempt
+                for p in (path, *head_paths(path)):
+                    if os.path.lexists(p):
+                        os.unlink(p)
+                if os.path.isdir(backup_folder(path)) and not os.listdir(backup_folder(path)):
+                    os.rmdir(backup_folder(path))
+                raise
         return lf
 
     # --- reading -----------------------------------------------------------------------------

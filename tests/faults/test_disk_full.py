@@ -10,7 +10,7 @@ import subprocess
 import sys
 
 import pytest
-from faultkit import child_env, folder_state, make_ledger, run
+from faultkit import CRAFT_YAML, child_env, folder_state, make_ledger, run
 
 from ledger.errors import StoreError
 from ledger.services.ledger import Ledger
@@ -108,12 +108,15 @@ def test_injected_faults_in_a_restore_put_the_damaged_file_back(tmp_path, monkey
     assert backup.restore(path).seq == 3
 
 
-def test_injected_fault_in_init_creates_nothing(tmp_path, monkeypatch):
+@pytest.mark.parametrize("step,on_call", [("fsync", 2), ("write_all", 2), ("replace", 2), ("write_all", 3)])
+def test_injected_fault_in_init_creates_nothing(tmp_path, monkeypatch, step, on_call):
+    """fsync 2 is the folder's after the ledger is linked in; write_all 2 and 3 and replace 2 write the heads."""
     craft = tmp_path / "c.yaml"
-    from faultkit import CRAFT_YAML
-
     craft.write_text(CRAFT_YAML)
-    monkeypatch.setattr(durable, "fsync", _fail(errno.EIO, "fsync", 2))  # the folder fsync after the link
+    before = folder_state(str(tmp_path))
+    monkeypatch.setattr(durable, step, _fail(errno.EIO, step, on_call))
     code, _, err = run("--ledger", str(tmp_path / "l.json"), "init", "--craft", str(craft))
     assert code == 2 and "Input/output error" in err
-    assert not os.path.exists(tmp_path / "l.json")
+    assert folder_state(str(tmp_path)) == before
+    monkeypatch.undo()
+    assert run("--ledger", str(tmp_path / "l.json"), "init", "--craft", str(craft))[0] == 0

@@ -12,7 +12,8 @@ import sys
 
 from ..errors import LedgerError
 
-COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.demo", "ledger.cli.handover")
+COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.demo", "ledger.cli.handover",
+                   "ledger.cli.integrity")
 EXIT_ERROR = 2
 
 
@@ -21,6 +22,11 @@ class _Parser(argparse.ArgumentParser):
 
     def error(self, message: str):  # noqa: D401
         raise LedgerError(f"{self.prog}: {message} (see '{self.prog} --help')")
+
+
+def _one_line(exc: BaseException) -> str:
+    """The message on one line, with nothing in it (a path, a value from a file) able to drive the terminal."""
+    return "".join(ch if ch.isprintable() else " " if ch in "\n\r\t" else "?" for ch in str(exc))
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -44,7 +50,7 @@ def main(argv: list[str] | None = None) -> int:
             return open_console(args)
         return int(args.func(args) or 0)
     except LedgerError as exc:
-        print(f"propledger: error: {exc}", file=sys.stderr)
+        print(f"propledger: error: {_one_line(exc)}", file=sys.stderr)
         return EXIT_ERROR
     except KeyboardInterrupt:
         print("propledger: interrupted; nothing further written", file=sys.stderr)
@@ -54,7 +60,7 @@ def main(argv: list[str] | None = None) -> int:
     except Exception as exc:  # noqa: BLE001 - a user never sees a traceback; developers can ask for one
         if os.environ.get("PROPLEDGER_DEBUG"):
             raise
-        print(f"propledger: internal error: {type(exc).__name__}: {exc} (PROPLEDGER_DEBUG=1 shows the traceback)",
+        print(f"propledger: internal error: {type(exc).__name__}: {_one_line(exc)} (PROPLEDGER_DEBUG=1 shows the traceback)",
               file=sys.stderr)
         return EXIT_ERROR
 

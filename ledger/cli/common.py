@@ -41,14 +41,23 @@ def dump_json(obj: Any) -> None:
 def console(stderr: bool = False):
     from rich.console import Console  # noqa: PLC0415
 
-    return Console(stderr=stderr, highlight=False, soft_wrap=False)
+    return Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
+
+
+def plain(text: Any) -> str:
+    """Text with control characters (escape sequences, carriage returns, bells) shown as '?', so nothing read
+    from a file or typed can drive the terminal; newlines and tabs stay."""
+    s = str(text if text is not None else "")
+    if s.isprintable():
+        return s
+    return "".join(ch if ch.isprintable() or ch in "\n\t" else "?" for ch in s)
 
 
 def esc(text: Any) -> str:
-    """User text made inert for rich markup."""
+    """User or file text made inert for the terminal: no control characters and no rich markup."""
     from rich.markup import escape  # noqa: PLC0415
 
-    return escape(str(text if text is not None else ""))
+    return escape(plain(text))
 
 
 def warn(lines: list[str]) -> None:

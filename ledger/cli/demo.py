@@ -5,6 +5,7 @@ import os
 import tempfile
 
 from ..errors import InputError
+from .common import plain
 
 DEFAULT = "geo-comsat"
 
@@ -23,7 +24,7 @@ def cmd_demo(args) -> int:
     found = scenario.bundled()
     if args.scenario == "list":
         for name in found:
-            print(name)
+            print(plain(name))
         return 0
     if args.scenario not in found:
         raise InputError(f"--scenario: no bundled scenario '{args.scenario}' (have: {', '.join(found) or 'none'})")
@@ -32,7 +33,7 @@ def cmd_demo(args) -> int:
     path = os.path.join(folder, f"{args.scenario}.ledger.json")
     scenario.build(found[args.scenario], path)
     args.ledger = path
-    print(f"demo ledger: {path}  (use --ledger {path} with any command)")
+    print(plain(f"demo ledger: {path}  (use --ledger {path} with any command)"))
     from .console import open_console  # noqa: PLC0415
     from .reading import cmd_log, cmd_status  # noqa: PLC0415
 

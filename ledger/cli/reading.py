@@ -1,8 +1,6 @@
 """Read commands: status, check, log, verify. Tables by rich, or JSON with --json."""
 from __future__ import annotations
 
-import sys
-
 from ..services import views
 from .common import add_json, console, dump_json, esc, open_ledger, qty
 
@@ -25,7 +23,7 @@ def register(sub) -> None:
     add_json(p)
     p.set_defaults(func=cmd_log)
 
-    p = sub.add_parser("verify", help="recompute the hash chain; exit 1 on any break")
+    p = sub.add_parser("verify", help="recompute the hash chain and check the recorded head; exit 1 on any break")
     add_json(p)
     p.set_defaults(func=cmd_verify)
 
@@ -44,6 +42,9 @@ def print_status(data: dict) -> None:
     from rich.table import Table  # noqa: PLC0415
 
     out = console()
+    if data["integrity"] != "intact":
+        out.print(f"[bold white on red] INTEGRITY BROKEN [/] [bold red]{esc(data['integrity'])}: the figures below "
+                  "replay a ledger changed after it was written; run 'propledger verify' and 'propledger restore'[/]")
     out.print(f"[bold]{esc(data['craft'])}[/]  mass {data['mass_kg']:.2f} kg  entries {data['entries']}  "
               f"chain {esc(data['integrity'])}")
     tanks = Table(title="Tanks", title_justify="left")
@@ -165,14 +166,6 @@ def print_log(craft, rows: list[dict]) -> None:
 
 
 def cmd_verify(args) -> int:
-    led = open_ledger(args)
-    brk = led.file.verify()
-    seq, head = led.file.head()
-    if args.json:
-        dump_json({"intact": brk is None, "entries": seq, "head": head,
-                   "break": None if brk is None else {"seq": brk.seq, "problem": brk.problem}})
-    elif brk is None:
-        console().print(f"chain intact: {seq} entries, head {head[:16]}")
-    else:
-        print(f"propledger: {brk}", file=sys.stderr)
-    return 0 if brk is None else 1
+    from .integrity import cmd_verify as verify  # noqa: PLC0415 - the chain and head checks live there
+
+    return verify(args)

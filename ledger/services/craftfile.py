@@ -30,6 +30,8 @@ def load_yaml(path: str) -> Any:
         mark = getattr(exc, "problem_mark", None)
         where = f" at line {mark.line + 1}" if mark else ""
         raise InputError(f"{path}: not valid YAML{where}") from None
+    except (ValueError, OverflowError, RecursionError) as exc:  # e.g. an integer too long to convert
+        raise InputError(f"{path}: not a usable YAML document ({type(exc).__name__})") from None
 
 
 class _Fields:
@@ -49,7 +51,11 @@ class _Fields:
         value = self.node[key]
         if isinstance(value, bool) or not isinstance(value, (str, int, float)) or str(value).strip() == "":
             raise InputError(f"{self.at(key)}: expected non-empty text, got {value!r}")
-        return str(value).strip()
+        text = str(value).strip()
+        if not text.isprintable() or len(text) > 200:
+            raise InputError(f"{self.at(key)}: expected printable text of at most 200 characters (no control "
+                             "characters or line breaks)")
+        return text
 
     def qty(self, key: str, dimension: str, default: float | None = None, *, positive: bool = False,
             required: bool = True) -> float | None:
@@ -139,7 +145,10 @@ def craft_from_document(doc: Any, src: str) -> Craft:
     ops = head.node.get("operations") or doc.get("operations") or {}
     if not isinstance(ops, Mapping):
         raise InputError(f"{src}: operations: expected a mapping with 'routine'")
-    for i, node in enumerate(ops.get("routine") or []):
+    routine_nodes = ops.get("routine") or []
+    if not isinstance(routine_nodes, list):
+        raise InputError(f"{src}: operations.routine: expected a list of {{engine, dv_per_year}}")
+    for i, node in enumerate(routine_nodes):
         f = _Fields(src, node, f"operations.routine[{i}]")
         routine.append(Routine(engine_ref(f), f.qty("dv_per_year", "speed")))
     return Craft(name=name, dry_mass_kg=dry_mass,

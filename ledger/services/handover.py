@@ -129,11 +129,9 @@ def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, sinc
 
 
 def _backup(path: str) -> dict[str, Any]:
-    """Write a backup through the integrity work's ``make_backup``: its path, or a warning saying why not."""
-    try:
-        from ..store.backup import make_backup  # noqa: PLC0415 - only when a handover is recorded
-    except ImportError:  # MERGE GUARD: remove once ledger.store.backup is merged
-        return {"backup": None, "failed": False, "warning": "backup module not available"}
+    """Write a backup (which also records the chain head): its path, or a warning saying why not."""
+    from ..store.backup import make_backup  # noqa: PLC0415 - only when a handover is recorded
+
     try:
         return {"backup": make_backup(path), "failed": False, "warning": None}
     except (LedgerError, OSError) as exc:

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Mapping, Sequence
 
 import numpy as np
@@ -10,15 +10,23 @@ import numpy as np
 from ..core import capability as cap
 from ..core.codec import craft_from_dict, craft_to_dict
 from ..core.craft import Craft
-from ..core.entries import BURN, CORRECT, HANDOVER, PLAN, Entry, Resolved, apply_correction, resolve
+from ..core.entries import BURN, CORRECT, HANDOVER, MASS, PLAN, USE, WITHDRAW, Entry, Resolved, apply_correction, resolve
 from ..core.replay import Replay, replay
 from ..errors import InputError, StoreError
-from ..store.chain import Break
-from ..store.ledgerfile import LedgerFile
+from ..store.chain import Break, verify_chain
+from ..store.ledgerfile import LedgerFile, ordered
 from .records import clean_text, entry_from_record, make_record, validate_data
 from .timefmt import iso, now
 
 CORRECTABLE = ("at", "note", "engine", "dv", "duration", "propellant", "delta")
+FIELDS_BY_KIND = {
+    BURN: ("at", "note", "engine", "dv", "duration", "propellant"),
+    PLAN: ("at", "note", "engine", "dv"),
+    USE: ("at", "note", "engine", "duration", "propellant"),
+    MASS: ("at", "note", "delta"),
+    WITHDRAW: ("at", "note"),
+}
+"""What a correction may change, by the kind of entry it corrects."""
 
 
 @dataclass(frozen=True)
@@ -93,67 +101,97 @@ class Ledger:
 
     def snapshot(self) -> Snapshot:
         doc = self.file.document()
-        from ..store.chain import verify_chain  # noqa: PLC0415
         meta = doc["meta"]["1"]
-        records = self.file.records()
+        records = ordered(doc)
         try:
-            return snapshot_from(self.path, meta, records, verify_chain(meta, records))
-        except (KeyError, TypeError, ValueError) as exc:
+            snap = snapshot_from(self.path, meta, records, verify_chain(meta, records))
+        except (KeyError, TypeError, ValueError, AttributeError, IndexError, ZeroDivisionError) as exc:
             raise StoreError(f"{self.path}: ledger contents malformed ({type(exc).__name__}: {exc})") from None
+        if self.file.notices:
+            snap = replace(snap, warnings=tuple(self.file.notices) + snap.warnings)
+        return snap
+
+    @staticmethod
+    def _new_warnings(before: Snapshot, after: Snapshot) -> list[str]:
+        """Warnings the write raised."""
+        return [w for w in after.warnings if w not in before.warnings]
 
     # --- writing -------------------------------------------------------------------------------
     def record(self, kind: str, data: Mapping[str, Any], *, at: float | None = None, by: str | None = None,
                note: str | None = None, snap: Snapshot | None = None) -> tuple[dict[str, Any], list[str]]:
         """Validate and append one entry. Returns the stored record and warnings it raises (never refused
         for contradicting the model: an executed burn that overdraws a tank is stored with a warning)."""
-        snap = snap or self.snapshot()
         if kind == PLAN and at is None:
             raise InputError("plan: --at is required (the planned time of the burn)")
-        payload = validate_data(snap.craft, snap.resolved, kind, data)
-        t = now() if at is None else at
-        rec = make_record(kind, t, now(), by, note, payload)
-        stored = self.file.append(rec)
-        after = self.snapshot()
-        new = [w for w in after.warnings if w not in snap.warnings]
-        return stored, new
+        with self.file.locked():  # validate against the ledger as it is when the entry is appended
+            snap = self._writable(snap)
+            payload = validate_data(snap.craft, snap.resolved, kind, data)
+            t = now() if at is None else at
+            rec = _readable(make_record(kind, t, now(), by, note, payload))
+            stored = self.file.append(rec)
+        return stored, self._new_warnings(snap, self.snapshot())
+
+    def _writable(self, snap: Snapshot | None) -> Snapshot:
+        """A current snapshot (call under the lock); refuses to add to a ledger whose chain does not verify."""
+        snap = self.snapshot() if snap is None or self._stale(snap) else snap
+        if snap.integrity is not None:
+            raise StoreError(f"{self.path}: {snap.integrity}; not recording onto a ledger whose chain does not "
+                             f"verify. {self.file.hint()}")
+        return snap
+
+    def _stale(self, snap: Snapshot) -> bool:
+        last = snap.entries[-1].seq if snap.entries else 0
+        return self.file.head()[0] != last
 
     def correct(self, target: Any, changes: Mapping[str, Any], *, reason: str | None, by: str | None = None,
                 snap: Snapshot | None = None) -> tuple[dict[str, Any], list[str]]:
         """Append a correction superseding entry ``target`` with the given fields changed."""
-        snap = snap or self.snapshot()
         try:
-            seq = int(str(target).lstrip("#"))
+            seq = int(str(target).strip().lstrip("#"))
         except ValueError:
             raise InputError(f"--entry: expected an entry id such as 12, got {target!r}") from None
-        by_seq = {e.seq: e for e in snap.entries}
-        if seq not in by_seq:
-            raise InputError(f"--entry: no entry {seq} in this ledger")
         changes = {k: v for k, v in changes.items() if v is not None}
         unknown = set(changes) - set(CORRECTABLE)
         if unknown or not changes:
             raise InputError(f"correct: give at least one corrected field ({', '.join('--' + c for c in CORRECTABLE)})")
         if not clean_text(reason, "--reason"):
             raise InputError("correct: --reason is required (why the entry was wrong)")
-        root = seq
-        while by_seq[root].kind == CORRECT:
-            root = int(by_seq[root].data["entry"])
-        current = snap.resolved.effective[root]
-        if current.kind == CORRECT:
-            raise InputError(f"--entry: entry {seq} cannot be corrected")
-        if current.kind == HANDOVER:
-            raise InputError(f"--entry: entry {seq} is a handover; record a new handover instead of correcting it")
-        merged = apply_correction(current, changes)
-        data = dict(merged.data)
-        plan = data.pop("plan", None) if merged.kind == BURN else None
-        validate_data(snap.craft, snap.resolved, merged.kind, data)
-        if plan is not None:
-            data["plan"] = plan
-        payload = {"entry": seq, "changes": dict(changes), "reason": clean_text(reason, "--reason")}
-        rec = make_record(CORRECT, now(), now(), by, None, payload)
-        rec["at"] = rec["recorded"]
-        stored = self.file.append(rec)
-        after = self.snapshot()
-        return stored, [w for w in after.warnings if w not in snap.warnings]
+        with self.file.locked():
+            snap = self._writable(snap)
+            by_seq = {e.seq: e for e in snap.entries}
+            if seq not in by_seq:
+                raise InputError(f"--entry: no entry {seq} in this ledger")
+            root = seq
+            while by_seq[root].kind == CORRECT:
+                root = int(by_seq[root].data["entry"])
+            current = snap.resolved.effective[root]
+            if current.kind not in FIELDS_BY_KIND:
+                raise InputError(f"--entry: entry {seq} is a {current.kind} entry, which cannot be corrected;"
+                                 " record a new one instead")
+            allowed = FIELDS_BY_KIND[current.kind]
+            wrong = [k for k in changes if k not in allowed]
+            if wrong:
+                raise InputError(f"correct: entry {seq} is a {current.kind}; it has no {', '.join('--' + k for k in wrong)}"
+                                 f" (a {current.kind} can be corrected with {', '.join('--' + k for k in allowed)})")
+            merged = apply_correction(current, changes)
+            if merged.kind != WITHDRAW:  # a withdrawal's plan link is not correctable; nothing else to check
+                data = dict(merged.data)
+                data.pop("plan", None)  # the link it already has is not re-checked against itself
+                validate_data(snap.craft, snap.resolved, merged.kind, data)
+            payload = {"entry": seq, "changes": dict(changes), "reason": clean_text(reason, "--reason")}
+            rec = make_record(CORRECT, now(), now(), by, None, payload)
+            rec["at"] = rec["recorded"]
+            stored = self.file.append(_readable(rec))
+        return stored, self._new_warnings(snap, self.snapshot())
+
+
+def _readable(rec: dict[str, Any]) -> dict[str, Any]:
+    """The record, once it is known to read back as an entry (a record that cannot is never written)."""
+    try:
+        entry_from_record(dict(rec, seq=0))
+    except (InputError, KeyError, TypeError, ValueError) as exc:
+        raise InputError(f"{rec.get('kind')}: the entry would not read back ({exc}); nothing was recorded") from None
+    return rec
 
 
 def resolve_path(path: str | None) -> str:

@@ -8,6 +8,12 @@ from datetime import datetime, timezone
 from ..errors import InputError
 
 
+YEARS = (1900, 3000)
+EARLIEST = datetime(YEARS[0], 1, 1, tzinfo=timezone.utc).timestamp()
+LATEST = datetime(YEARS[1], 1, 1, tzinfo=timezone.utc).timestamp()
+"""Times outside these years are typing mistakes, and could not be written back as four-digit ISO years."""
+
+
 def now() -> float:
     return time.time()
 
@@ -17,8 +23,8 @@ def parse_time(text: str | float | datetime, where: str = "--at") -> float:
     if isinstance(text, datetime):
         dt = text
     elif isinstance(text, (int, float)) and not isinstance(text, bool):
-        if not math.isfinite(text):
-            raise InputError(f"{where}: not a finite time")
+        if not math.isfinite(text) or not EARLIEST <= text < LATEST:
+            raise InputError(f"{where}: not a time between the years {YEARS[0]} and {YEARS[1] - 1}")
         return float(text)
     else:
         s = str(text).strip()
@@ -31,9 +37,12 @@ def parse_time(text: str | float | datetime, where: str = "--at") -> float:
     if dt.tzinfo is None:
         dt = dt.replace(tzinfo=timezone.utc)
     try:
-        return dt.timestamp()
+        t = dt.timestamp()
     except (OverflowError, ValueError, OSError):
         raise InputError(f"{where}: {text!r} is out of range") from None
+    if not EARLIEST <= t < LATEST:
+        raise InputError(f"{where}: {text!r} is outside the years {YEARS[0]} to {YEARS[1] - 1}")
+    return t
 
 
 def iso(t: float) -> str:

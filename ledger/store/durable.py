@@ -2,13 +2,17 @@
 
 TinyDB's own JSONStorage truncates and rewrites in place; a crash mid-write loses the ledger. Here every
 write goes to a temporary file in the same folder, is flushed and fsynced, renamed over the ledger and the
-folder is fsynced: only then is the write acknowledged. The low-level steps are module functions so the
-fault tests can inject ENOSPC or EIO into exactly these calls. The parsed document is cached while the
-file's (inode, size, mtime) are unchanged, because every TinyDB operation reads the whole file.
+folder is fsynced: only then is the write acknowledged. If the folder fsync fails after the rename, the
+previous version (kept as a hard link until then) is put back, so a failed write never leaves a changed
+file behind. The low-level steps are module functions so the fault tests can inject ENOSPC or EIO into
+exactly these calls. Any OSError becomes one StoreError line. The parsed document is cached while the
+file's (device, inode, size, mtime, ctime) are unchanged, because every TinyDB operation reads the whole file.
 """
 from __future__ import annotations
 
 import os
+import re
+import secrets
 import tempfile
 from typing import Any
 
@@ -17,8 +21,8 @@ from tinydb.storages import Storage
 
 from ..errors import StoreError
 
-_CACHE: dict[str, tuple[tuple[int, int, int], dict[str, Any]]] = {}
-TMP_PREFIX = ".propledger-tmp-"
+_CACHE: dict[str, tuple[tuple[int, ...], dict[str, Any]]] = {}
+TMP_SUFFIX = ".propledger-tmp"
 
 
 # --- the raw steps (patched by fault tests) ----------------------------------------------------
@@ -41,7 +45,7 @@ def link(src: str, dst: str) -> None:
     os.link(src, dst)
 
 
-def _fsync_dir(folder: str) -> None:
+def fsync_dir(folder: str) -> None:
     fd = os.open(folder, os.O_RDONLY)
     try:
         fsync(fd)
@@ -49,10 +53,47 @@ def _fsync_dir(folder: str) -> None:
         os.close(fd)
 
 
-def _key(st: os.stat_result) -> tuple[int, int, int]:
-    return (st.st_ino, st.st_size, st.st_mtime_ns)
+def _key(st: os.stat_result) -> tuple[int, ...]:
+    return (st.st_dev, st.st_ino, st.st_size, st.st_mtime_ns, st.st_ctime_ns)
 
 
+def _reason(exc: OSError) -> str:
+    return exc.strerror or type(exc).__name__
+
+
+# --- temporaries: named after the file they will become, so cleaning one ledger's never touches another's
+def _tmp_prefix(path: str) -> str:
+    return f".{os.path.basename(path)}."
+
+
+def _tmp_pattern(path: str) -> re.Pattern[str]:
+    return re.compile(re.escape(_tmp_prefix(path)) + r"[A-Za-z0-9_]{8}" + re.escape(TMP_SUFFIX) + "$")
+
+
+_ANY_TMP = re.compile(r"^\..+\.[A-Za-z0-9_]{8}" + re.escape(TMP_SUFFIX) + "$")
+
+
+def clean_temporaries(path: str, *, whole_folder: bool = False) -> int:
+    """Remove temporary files a killed writer left for ``path`` (call under the ledger lock); with
+    ``whole_folder``, every propledger temporary in the folder ``path`` (a folder only this ledger uses)."""
+    folder = path if whole_folder else os.path.dirname(os.path.abspath(path))
+    pattern = _ANY_TMP if whole_folder else _tmp_pattern(path)
+    n = 0
+    try:
+        names = os.listdir(folder)
+    except OSError:
+        return 0
+    for name in names:
+        if pattern.match(name):
+            try:
+                os.unlink(os.path.join(folder, name))
+                n += 1
+            except OSError:
+                pass
+    return n
+
+
+# --- reading -----------------------------------------------------------------------------------
 def encode(data: dict[str, Any]) -> bytes:
     return orjson.dumps(data)
 
@@ -63,37 +104,64 @@ def decode(raw: bytes, path: str) -> dict[str, Any]:
     try:
         data = orjson.loads(raw)
     except orjson.JSONDecodeError as exc:
-        raise StoreError(f"{path}: not a readable ledger (damaged or truncated JSON: {exc})") from None
+        raise StoreError(f"{path}: not a readable ledger file (not valid JSON: {exc}); it is damaged, "
+                         "truncated or another program's file") from None
     if not isinstance(data, dict):
-        raise StoreError(f"{path}: not a ledger file (top level is not a JSON object)")
+        raise StoreError(f"{path}: not a ledger file (top level is a JSON {type(data).__name__}, not an object)")
     return data
 
 
-def read_document(path: str) -> dict[str, Any]:
-    """The parsed file, from the cache when the file has not changed since it was last read or written."""
+def _regular(path: str) -> os.stat_result:
     try:
         st = os.stat(path)
     except FileNotFoundError:
         raise StoreError(f"{path}: no ledger here (create one with 'propledger init')") from None
+    except OSError as exc:
+        raise StoreError(f"{path}: cannot read it ({_reason(exc)})") from None
+    if os.path.isdir(path):
+        raise StoreError(f"{path}: is a folder, not a ledger file")
     if not os.path.isfile(path):
         raise StoreError(f"{path}: is not a regular file")
+    return st
+
+
+def read_bytes(path: str) -> bytes:
+    """The file's exact bytes (for backups), with the same clear errors as ``read_document``."""
+    _regular(path)
+    try:
+        with open(path, "rb") as fh:
+            return fh.read()
+    except OSError as exc:
+        raise StoreError(f"{path}: cannot read it ({_reason(exc)})") from None
+
+
+def read_document(path: str) -> dict[str, Any]:
+    """The parsed file, from the cache when the file has not changed since it was last read or written."""
+    st = _regular(path)
     hit = _CACHE.get(path)
     if hit and hit[0] == _key(st):
         return dict(hit[1])
-    with open(path, "rb") as fh:
-        st = os.fstat(fh.fileno())
-        raw = fh.read()
+    try:
+        with open(path, "rb") as fh:
+            st = os.fstat(fh.fileno())
+            raw = fh.read()
+    except OSError as exc:
+        raise StoreError(f"{path}: cannot read it ({_reason(exc)})") from None
     data = decode(raw, path)
     _CACHE[path] = (_key(st), data)
     return dict(data)
 
 
-def write_document(path: str, data: dict[str, Any], *, exclusive: bool = False) -> None:
-    """Durably replace (or, with exclusive, create without overwriting) the file at ``path``."""
+# --- writing -----------------------------------------------------------------------------------
+def write_bytes(path: str, payload: bytes, *, exclusive: bool = False) -> None:
+    """Durably replace (or, with exclusive, create without overwriting) the file at ``path``.
+
+    Acknowledged only by returning; on any failure the file at ``path`` is what it was before."""
     folder = os.path.dirname(os.path.abspath(path))
-    payload = encode(data)
-    fd, tmp = tempfile.mkstemp(prefix=TMP_PREFIX, dir=folder)  # created 0600
+    _CACHE.pop(path, None)
+    tmp = prev = None
     try:
+        fd, tmp = tempfile.mkstemp(prefix=_tmp_prefix(path), suffix=TMP_SUFFIX, dir=folder)  # created 0600
         try:
             write_all(fd, payload)
             fsync(fd)
@@ -104,30 +172,46 @@ def write_document(path: str, data: dict[str, Any], *, exclusive: bool = False) 
                 link(tmp, path)
             except FileExistsError:
                 raise StoreError(f"{path}: already exists; refusing to overwrite it") from None
-            os.unlink(tmp)
-        else:
-            replace(tmp, path)
-        _fsync_dir(folder)
-    except BaseException:
-        _CACHE.pop(path, None)
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    _CACHE[path] = (_key(os.stat(path)), data)
-
-
-def clean_temporaries(path: str) -> int:
-    """Remove temporary files a killed writer left beside the ledger (call under the lock)."""
-    folder = os.path.dirname(os.path.abspath(path))
-    n = 0
-    for name in os.listdir(folder):
-        if name.startswith(TMP_PREFIX):
             try:
-                os.unlink(os.path.join(folder, name))
-                n += 1
-            except FileNotFoundError:
-                pass
-    return n
+                fsync_dir(folder)
+            except BaseException:
+                os.unlink(path)
+                raise
+        else:
+            prev = _keep_previous(path, folder)
+            replace(tmp, path)
+            tmp = None
+            try:
+                fsync_dir(folder)
+            except BaseException:
+                if prev is not None:
+                    os.replace(prev, path)
+                    prev = None
+                raise
+    except OSError as exc:
+        raise StoreError(f"{path}: could not write it ({_reason(exc)}); nothing was recorded and the "
+                         "previous file is unchanged") from None
+    finally:
+        for leftover in (tmp, prev):
+            if leftover is not None and os.path.lexists(leftover):
+                os.unlink(leftover)
+
+
+def _keep_previous(path: str, folder: str) -> str | None:
+    """A hard link to the current file, so a failed folder fsync can put it back (None if impossible)."""
+    if not os.path.isfile(path):
+        return None
+    name = os.path.join(folder, _tmp_prefix(path) + secrets.token_hex(4) + TMP_SUFFIX)
+    try:
+        os.link(path, name)
+    except OSError:
+        return None
+    return name
+
+
+def write_document(path: str, data: dict[str, Any], *, exclusive: bool = False) -> None:
+    write_bytes(path, encode(data), exclusive=exclusive)
+    _CACHE[path] = (_key(os.stat(path)), data)
 
 
 class DurableStorage(Storage):

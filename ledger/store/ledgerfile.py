@@ -1,15 +1,20 @@
 """The ledger file: a TinyDB database with a ``meta`` table (schema, craft, first chain link) and an
 ``entries`` table whose document ids are the entries' sequence numbers.
 
-One write path: ``append``. It runs under an exclusive lock on a sidecar lock file, re-reads the file
-inside the lock (another process may have appended), numbers the entry itself, links it into the hash
-chain and writes through the durable storage. Reads need no lock: the file is only ever replaced whole.
+One write path: ``append_many``. It runs under an exclusive lock on a sidecar lock file, re-reads the
+file inside the lock (another process may have appended), numbers the entries itself, links them into
+the hash chain and writes through the durable storage. Reads need no lock: the file is only ever
+replaced whole. Every read checks the layout and the chain head recorded outside the file; a damaged
+file is never written over, and its error names the newest good backup and the restore command.
 """
 from __future__ import annotations
 
 import os
 import socket
-from typing import Any, Mapping
+import threading
+from contextlib import contextmanager
+from datetime import datetime, timezone
+from typing import Any, Iterator, Mapping
 
 from filelock import FileLock, Timeout
 from tinydb import TinyDB
@@ -19,14 +24,67 @@ from .. import __version__
 from ..errors import StoreError
 from . import durable
 from .chain import GENESIS_PREV, Break, digest, verify_chain
+from .head import HeadMismatch, backup_folder, check_heads, head_paths, write_heads
+from .migrate import migrate_document
 
 SCHEMA = 1
 META, ENTRIES = "meta", "entries"
 LOCK_TIMEOUT_S = 10.0
 
+_LOCKS: dict[str, FileLock] = {}
+_LOCKS_GUARD = threading.Lock()
 
-def lock_for(path: str, timeout: float = LOCK_TIMEOUT_S) -> FileLock:
-    return FileLock(path + ".lock", timeout=timeout, mode=0o600)
+
+def lock_for(path: str) -> FileLock:
+    """The one lock object per ledger in this process (re-entrant; flock, freed by the kernel on death)."""
+    key = os.path.abspath(path) + ".lock"
+    with _LOCKS_GUARD:
+        if key not in _LOCKS:
+            _LOCKS[key] = FileLock(key, mode=0o600)
+        return _LOCKS[key]
+
+
+def utc_stamp() -> str:
+    return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+
+
+class Damaged(StoreError):
+    """The file at the ledger path cannot be used as it is; restoring a backup is the remedy."""
+
+
+def check_layout(doc: Mapping[str, Any], path: str) -> None:
+    """Raise Damaged unless ``doc`` has the ledger's layout (StoreError if a newer schema wrote it)."""
+    meta_table, table = doc.get(META), doc.get(ENTRIES)
+    if not isinstance(meta_table, dict) or "1" not in meta_table or not isinstance(table, dict):
+        raise Damaged(f"{path}: not a propledger ledger (no craft definition or entries table)")
+    meta = meta_table["1"]
+    if not isinstance(meta, dict) or not isinstance(meta.get("craft"), dict) or not isinstance(meta.get("hash"), str):
+        raise Damaged(f"{path}: not a propledger ledger (craft definition record malformed)")
+    schema = meta.get("schema")
+    if not isinstance(schema, int) or isinstance(schema, bool):
+        raise Damaged(f"{path}: not a propledger ledger (schema version missing or not a number)")
+    if schema > SCHEMA:
+        raise StoreError(f"{path}: written by a newer propledger (schema {schema}, this one reads up to "
+                         f"{SCHEMA}); upgrade propledger to open it; nothing was changed")
+    for key, rec in table.items():
+        if not (key.isascii() and key.isdigit() and key[0] != "0"):
+            raise Damaged(f"{path}: entry id {key[:20]!r} is not a sequence number")
+        if not isinstance(rec, dict) or rec.get("seq") != int(key) or not isinstance(rec.get("hash"), str):
+            raise Damaged(f"{path}: entry {key} is malformed (not a record with its own sequence number and hash)")
+
+
+def head_of(doc: Mapping[str, Any]) -> tuple[int, str]:
+    """(sequence, hash) of the last link of the chain."""
+    table = doc[ENTRIES]
+    if not table:
+        return 0, doc[META]["1"]["hash"]
+    last = table[str(max(int(k) for k in table))]
+    return int(last["seq"]), str(last["hash"])
+
+
+def ordered(doc: Mapping[str, Any]) -> list[dict[str, Any]]:
+    table = doc[ENTRIES]
+    return [table[k] for k in sorted(table, key=int)]
 
 
 class LedgerFile:
@@ -35,39 +93,72 @@ class LedgerFile:
     def __init__(self, path: str, lock_timeout: float = LOCK_TIMEOUT_S):
         self.path = os.path.abspath(path)
         self.lock_timeout = lock_timeout
+        self.notices: list[str] = []
+        self._checked: Any = None
 
     # --- creation ----------------------------------------------------------------------------
     @classmethod
     def create(cls, path: str, craft: Mapping[str, Any], created: str, by: str) -> "LedgerFile":
         """Write a new ledger holding only the craft definition; never overwrite an existing file."""
-        path = os.path.abspath(path)
+        lf = cls(path)
+        path = lf.path
         folder = os.path.dirname(path)
         if not os.path.isdir(folder):
             raise StoreError(f"{path}: folder {folder} does not exist")
-        if os.path.lexists(path):
-            raise StoreError(f"{path}: already exists; refusing to overwrite it")
         meta: dict[str, Any] = {
             "schema": SCHEMA, "program": f"propledger {__version__}", "created": created, "by": by,
             "craft": dict(craft), "prev": GENESIS_PREV,
         }
         meta["hash"] = digest(meta, new=True)
-        with cls._lock(path, LOCK_TIMEOUT_S):
+        with lf.locked():
+            if os.path.lexists(path):
+                raise StoreError(f"{path}: already exists; refusing to overwrite it")
+            traces = [p for p in (*head_paths(path), backup_folder(path)) if os.path.lexists(p)]
+            if traces:
+                from .backup import restore_command  # noqa: PLC0415 - backup imports this module
+
+                raise StoreError(f"{path}: no ledger file here, but {traces[-1]} belongs to a ledger at this path; "
+                                 f"restore it with '{restore_command(path)}', or move the head record and "
+                                 "backups aside to start a new ledger here")
             durable.write_document(path, {META: {"1": meta}, ENTRIES: {}}, exclusive=True)
-        return cls(path)
+            try:
+                write_heads(path, 0, meta["hash"], meta["hash"], created)
+            except BaseException:  # not created after all: leave no trace that would block the next attempt
+                for p in (path, *head_paths(path)):
+                    if os.path.lexists(p):
+                        os.unlink(p)
+                if os.path.isdir(backup_folder(path)) and not os.listdir(backup_folder(path)):
+                    os.rmdir(backup_folder(path))
+                raise
+        return lf
 
     # --- reading -----------------------------------------------------------------------------
-    def document(self) -> dict[str, Any]:
-        doc = durable.read_document(self.path)
-        meta_table = doc.get(META)
-        if not isinstance(meta_table, dict) or "1" not in meta_table or not isinstance(doc.get(ENTRIES), dict):
-            raise StoreError(f"{self.path}: not a propledger ledger (no craft definition or entries table)")
-        meta = meta_table["1"]
-        if not isinstance(meta, dict) or "schema" not in meta or "craft" not in meta:
-            raise StoreError(f"{self.path}: not a propledger ledger (craft definition record malformed)")
-        if not isinstance(meta["schema"], int) or meta["schema"] > SCHEMA:
-            raise StoreError(
-                f"{self.path}: written by a newer propledger (schema {meta['schema']}, this one reads up to "
-                f"{SCHEMA}); upgrade propledger to open it")
+    def check(self, doc: Mapping[str, Any]) -> None:
+        """Layout and recorded head; raises StoreError (with the recovery hint when a backup would help)."""
+        try:
+            if doc.get(ENTRIES) is not self._checked or doc.get(ENTRIES) is None:
+                check_layout(doc, self.path)
+                self._checked = doc[ENTRIES]
+            check_heads(self.path, doc[META]["1"], doc[ENTRIES])
+        except (Damaged, HeadMismatch) as exc:
+            raise type(exc)(f"{exc}. {self.hint()}") from None
+
+    def hint(self) -> str:
+        from .backup import recovery_hint  # noqa: PLC0415 - backup imports this module
+
+        return recovery_hint(self.path)
+
+    def document(self, *, migrate: bool = True) -> dict[str, Any]:
+        """The checked document; an older schema is migrated (after a backup) unless ``migrate`` is False."""
+        try:
+            doc = durable.read_document(self.path)
+        except StoreError as exc:
+            if not os.path.lexists(self.path) and not any(os.path.lexists(p) for p in head_paths(self.path)):
+                raise
+            raise Damaged(f"{exc}. {self.hint()}") from None
+        self.check(doc)
+        if migrate and doc[META]["1"]["schema"] < SCHEMA:
+            return self._migrate()
         return doc
 
     def meta(self) -> dict[str, Any]:
@@ -75,45 +166,43 @@ class LedgerFile:
 
     def records(self) -> list[dict[str, Any]]:
         """Entry records in sequence order."""
-        table = self.document()[ENTRIES]
-        try:
-            return [table[k] for k in sorted(table, key=int)]
-        except (ValueError, TypeError):
-            raise StoreError(f"{self.path}: not a propledger ledger (entry ids are not numbers)") from None
+        return ordered(self.document())
 
     def head(self) -> tuple[int, str]:
-        """(sequence, hash) of the last link of the chain."""
-        doc = self.document()
-        table = doc[ENTRIES]
-        if not table:
-            return 0, doc[META]["1"]["hash"]
-        last = table[str(max(int(k) for k in table))]
-        return int(last["seq"]), str(last["hash"])
+        return head_of(self.document())
 
     def verify(self) -> Break | None:
         doc = self.document()
-        return verify_chain(doc[META]["1"], self.records())
+        return verify_chain(doc[META]["1"], ordered(doc))
+
+    # --- locking -----------------------------------------------------------------------------
+    @contextmanager
+    def locked(self) -> Iterator[None]:
+        """Hold the ledger's exclusive lock (re-entrant) around a whole read-check-write."""
+        lock = lock_for(self.path)
+        try:
+            lock.acquire(timeout=self.lock_timeout)
+        except Timeout:
+            raise StoreError(f"{self.path}: another propledger process holds the ledger lock; gave up after "
+                             f"{self.lock_timeout:g} s; nothing was recorded") from None
+        except OSError as exc:
+            raise StoreError(f"{self.path}.lock: cannot take the ledger lock ({exc.strerror or exc})") from None
+        try:
+            yield
+        finally:
+            lock.release()
 
     # --- the one write path ------------------------------------------------------------------
-    @staticmethod
-    def _lock(path: str, timeout: float):
-        lock = lock_for(path, timeout)
-        try:
-            lock.acquire()
-        except Timeout:
-            raise StoreError(
-                f"{path}: another propledger process holds the ledger lock; gave up after {timeout:g} s") from None
-        return _Held(lock)
-
     def append(self, record: Mapping[str, Any]) -> dict[str, Any]:
         """Number, link and durably store one entry; returns the stored record once it is on disk."""
         return self.append_many([record])[0]
 
     def append_many(self, records: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
         """Append several entries in one durable write (all or none), e.g. when a scenario is loaded."""
-        with self._lock(self.path, self.lock_timeout):
-            durable.clean_temporaries(self.path)
-            seq, prev = self.head()
+        with self.locked():
+            for p in (self.path, *head_paths(self.path)):
+                durable.clean_temporaries(p)
+            seq, prev = head_of(self.document())
             host, program = socket.gethostname(), f"propledger {__version__}"
             stored_all = []
             for record in records:
@@ -130,14 +219,31 @@ class LedgerFile:
                 db.close()
             return stored_all
 
+    # --- schema migration --------------------------------------------------------------------
+    def _migrate(self) -> dict[str, Any]:
+        """Back up the old file, migrate and re-link it, and record the new head (under the lock)."""
+        with self.locked():
+            doc = self.document(migrate=False)
+            meta = doc[META]["1"]
+            old = meta["schema"]
+            if old >= SCHEMA:
+                return doc
+            brk = verify_chain(meta, ordered(doc))
+            if brk is not None:
+                raise StoreError(f"{self.path}: written with schema {old} and its {brk}; not migrating a ledger "
+                                 f"whose chain does not verify; nothing was changed. {self.hint()}")
+            from .backup import make_backup  # noqa: PLC0415
 
-class _Held:
-    def __init__(self, lock: FileLock):
-        self.lock = lock
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        self.lock.release()
-        return False
+            kept = make_backup(self.path)
+            seq, h = head_of(doc)
+            stamp = utc_stamp()
+            note = {"from": old, "old_head": {"seq": seq, "hash": h}, "backup": os.path.basename(kept), "at": stamp}
+            new = migrate_document(doc, SCHEMA, path=self.path, note=note)
+            for p in head_paths(self.path):  # the old head no longer describes the re-linked chain
+                if os.path.lexists(p):
+                    os.unlink(p)
+            durable.write_document(self.path, new)
+            nseq, nh = head_of(new)
+            write_heads(self.path, nseq, nh, new[META]["1"]["hash"], stamp)
+            self.notices.append(f"ledger migrated from schema {old} to {SCHEMA}; the old file is kept as {kept}")
+            return new

@@ -96,7 +96,7 @@ def test_overdraw_is_recorded_with_a_warning(ledger):
     (["mass", "--delta", "0 kg"], "zero"),
     (["withdraw", "--plan", "x"], "expected an entry id"),
     (["check", "--engine", "lae", "--dv", "3 furlongs"], "not a speed"),
-    (["correct", "--entry", "1", "--dv", "2 m/s"], "no entry 1"),
+    (["correct", "--entry", "1", "--dv", "2 m/s", "--reason", "typo"], "no entry 1"),
     (["frobnicate"], "invalid choice"),
 ])
 def test_errors_are_one_line_exit_2_and_write_nothing(ledger, args, message):

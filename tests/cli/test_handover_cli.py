@@ -78,3 +78,20 @@ def test_status_shows_the_forecast_line(two_shifts, capsys):
     assert "Lifetime: thr at 45.60 m/s/yr runs out of dv free" in out
     assert main(["--ledger", two_shifts.ledger.path, "status", "--json"]) == 0
     assert json.loads(capsys.readouterr().out)["forecast"]["engines"][0]["engine"] == "thr"
+
+
+def test_recording_writes_a_real_backup_and_head_record(two_shifts, capsys):
+    # No stand-in: the handover calls ledger.store.backup.make_backup, which copies the ledger and records
+    # the chain head beside it; the backup must be a ledger whose chain verifies.
+    import os
+
+    from ledger.store.backup import list_backups
+    from ledger.store.ledgerfile import LedgerFile
+
+    path = two_shifts.ledger.path
+    assert main(["--ledger", path, "handover", "--from", "Bo", "--to", "Cy", "--format", "text"]) == 0
+    backups = list_backups(path)
+    assert backups, "a handover writes a backup"
+    newest = backups[0]  # newest first
+    assert LedgerFile(newest).verify() is None
+    assert os.path.exists(path + ".head")

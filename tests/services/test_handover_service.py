@@ -144,16 +144,6 @@ def test_a_handover_cannot_be_corrected(two_shifts):
         two_shifts.ledger.correct(2, {"note": "x"}, reason="try")
 
 
-def test_missing_backup_module_records_with_a_warning(two_shifts, monkeypatch):
-    # The branch before the backup work is merged: the guard in services/handover.py _backup.
-    # DELETE THIS TEST together with that guard once ledger.store.backup is merged.
-    monkeypatch.setitem(sys.modules, "ledger.store.backup", None)
-    report = handover.record(two_shifts.ledger, handover.assemble(two_shifts.ledger, from_name="Bo", to_name="Cy"))
-    assert report["record"]["recorded"] and report["record"]["backup"] is None
-    assert "backup module not available" in report["warnings"]
-    assert report["record"]["backup_failed"] is False
-
-
 def test_backup_is_written_after_the_handover_entry(two_shifts, monkeypatch):
     seen = []
 

@@ -10,7 +10,7 @@ import numpy as np
 from ..core import capability as cap
 from ..core.codec import craft_from_dict, craft_to_dict
 from ..core.craft import Craft
-from ..core.entries import BURN, CORRECT, PLAN, Entry, Resolved, apply_correction, resolve
+from ..core.entries import BURN, CORRECT, GAUGE, PLAN, REBASELINE, Entry, Resolved, apply_correction, resolve
 from ..core.replay import Replay, replay
 from ..errors import InputError, StoreError
 from ..store.chain import Break
@@ -140,6 +140,9 @@ class Ledger:
         current = snap.resolved.effective[root]
         if current.kind == CORRECT:
             raise InputError(f"--entry: entry {seq} cannot be corrected")
+        if current.kind in (GAUGE, REBASELINE):
+            raise InputError(f"--entry: entry {seq} is a {current.kind} and cannot be corrected; record a new gauge"
+                             " reading (and re-baseline from it) instead")
         merged = apply_correction(current, changes)
         data = dict(merged.data)
         plan = data.pop("plan", None) if merged.kind == BURN else None

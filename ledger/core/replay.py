@@ -116,6 +116,16 @@ def mass_scan(m0: float, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return m
 
 
+def _scan(m: float, rem: np.ndarray, a: np.ndarray, b: np.ndarray, kind: np.ndarray, engine: np.ndarray,
+          fractions: np.ndarray) -> tuple[np.ndarray, ...]:
+    """One segment without re-baselines: masses after, propellant, drawn and remaining per tank."""
+    after = mass_scan(m, a, b)
+    before = np.concatenate(([m], after[:-1])) if len(after) else np.empty(0)
+    prop = np.where(kind == STEP_MASS, 0.0, before - after)
+    drawn = prop[:, None] * fractions[engine]  # engine -1 picks the zero row
+    return after, prop, drawn, rem - np.cumsum(drawn, axis=0), np.zeros(drawn.shape)
+
+
 def replay(craft: Craft, events: Sequence[Entry], steps: Steps | None = None) -> Replay:
     steps = steps if steps is not None else steps_from_events(craft, events)
     ve = craft.ve()
@@ -124,32 +134,27 @@ def replay(craft: Craft, events: Sequence[Entry], steps: Steps | None = None) ->
     n, n_tanks = len(steps.kind), len(craft.tanks)
     a, b = _affine(steps, ve)
     fractions = np.vstack([craft.feed_fractions(), np.zeros((1, n_tanks))])
-    after = np.empty(n)
-    drawn = np.zeros((n, n_tanks))
-    remaining = np.empty((n, n_tanks))
-    adjusted = np.zeros((n, n_tanks))
-    cuts = np.flatnonzero(steps.kind == STEP_REBASE) if steps.tank is not None else np.empty(0, dtype=int)
-    m, rem, start = m0, loads, 0
-    for stop in [*cuts.tolist(), n]:
-        if stop > start:  # one scan over the affine steps between re-baselines
-            seg = slice(start, stop)
-            after[seg] = mass_scan(m, a[seg], b[seg])
-            before = np.concatenate(([m], after[start:stop - 1]))
-            prop = np.where(steps.kind[seg] == STEP_MASS, 0.0, before - after[seg])
-            drawn[seg] = prop[:, None] * fractions[steps.engine[seg]]  # engine -1 picks the zero row
-            remaining[seg] = rem - np.cumsum(drawn[seg], axis=0)
-            m, rem = float(after[stop - 1]), remaining[stop - 1]
-        if stop < n:  # the re-baseline: the tank takes the adopted value, the craft mass the difference
-            t = int(steps.tank[stop])
-            delta = float(steps.amount[stop]) - float(rem[t])
-            adjusted[stop, t] = delta
-            m += delta
-            rem = rem.copy()
-            rem[t] = steps.amount[stop]
-            after[stop], remaining[stop] = m, rem
-        start = stop + 1
+    cuts = np.flatnonzero(steps.kind == STEP_REBASE) if steps.tank is not None else ()
+    if len(cuts) == 0:
+        after, prop, drawn, remaining, adjusted = _scan(m0, loads, a, b, steps.kind, steps.engine, fractions)
+    else:
+        parts, m, rem, start = [], m0, loads, 0
+        for stop in [*cuts.tolist(), n]:
+            if stop > start:  # one scan over the affine steps between re-baselines
+                seg = slice(start, stop)
+                parts.append(_scan(m, rem, a[seg], b[seg], steps.kind[seg], steps.engine[seg], fractions))
+                m, rem = float(parts[-1][0][-1]), parts[-1][3][-1]
+            if stop < n:  # the re-baseline: the tank takes the adopted value, the craft mass the difference
+                t = int(steps.tank[stop])
+                adjusted = np.zeros((1, n_tanks))
+                adjusted[0, t] = float(steps.amount[stop]) - float(rem[t])
+                m += adjusted[0, t]
+                rem = rem.copy()
+                rem[t] = steps.amount[stop]
+                parts.append((np.array([m]), np.zeros(1), np.zeros((1, n_tanks)), rem[None, :], adjusted))
+            start = stop + 1
+        after, prop, drawn, remaining, adjusted = (np.concatenate(x) for x in zip(*parts))
     before = np.concatenate(([m0], after[:-1])) if n else np.empty(0)
-    prop = np.where((steps.kind == STEP_MASS) | (steps.kind == STEP_REBASE), 0.0, before - after)
     with np.errstate(divide="ignore", invalid="ignore"):
         dv = np.where(steps.is_burn, ve[np.maximum(steps.engine, 0)] * np.log(before / after), 0.0)
     final_mass = float(after[-1]) if n else m0

@@ -12,7 +12,7 @@ EXIT_FLAGGED = 1
 
 def register(sub) -> None:
     p = sub.add_parser("gauge", help="propellant in a tank from its pressure and temperature, against the bookkeeping")
-    p.add_argument("--tank", required=True)
+    p.add_argument("--tank", required=True, help="tank id from the craft file")
     p.add_argument("--pressure", required=True, help="tank pressure as read, e.g. '7.1 bar' or '6.2 MPa'")
     p.add_argument("--temperature", required=True, help="tank temperature, e.g. '20 degC' or '293.15 K'")
     p.add_argument("--pressure-sigma", help="1-sigma of the pressure reading (default 0.5 %% of an assumed full "
@@ -26,7 +26,7 @@ def register(sub) -> None:
     p.set_defaults(func=cmd_gauge)
 
     p = sub.add_parser("rebaseline", help="adopt a gauge reading combined with the bookkeeping as the tank's value")
-    p.add_argument("--tank", required=True)
+    p.add_argument("--tank", required=True, help="tank id (must be the tank of the gauge reading)")
     p.add_argument("--gauge", required=True, help="id of the gauge entry to adopt")
     p.add_argument("--by", required=True, help="the person adopting the value (required)")
     p.add_argument("--reason", help="why the value is adopted")
@@ -66,10 +66,11 @@ def print_reading(r: dict) -> None:
               f"(+- {r['pressure_sigma_pa'] / 1e5:.3g} bar, {r['temperature_sigma_k']:.3g} K)")
     out.print(f"  gauged       {r['propellant_kg']:10.3f} kg  +- {r['sigma_kg']:.3f} (1 sigma)")
     out.print(f"  bookkeeping  {r['bookkeeping_kg']:10.3f} kg  +- {r['bookkeeping_sigma_kg']:.3f}")
-    verdict = ("[bold red]BEYOND 3 SIGMA[/]: investigate a leak, a sensor or the flow model before re-baselining"
-               if r["flagged"] else "within 3 sigma")
-    out.print(f"  difference   {r['difference_kg']:+10.3f} kg  = {r['difference_sigma']:+.2f} sigma: {verdict}")
-    if not r["flagged"]:
+    out.print(f"  difference   {r['difference_kg']:+10.3f} kg  = {r['difference_sigma']:+.2f} sigma"
+              + ("" if r["flagged"] else ", within 3 sigma"))
+    if r["flagged"]:
+        out.print("  [bold red]BEYOND 3 SIGMA[/]: look for a leak, a sensor fault or a flow-model error first")
+    else:
         out.print(f"  combined     {r['rebaseline_kg']:10.3f} kg  +- {r['rebaseline_sigma_kg']:.3f} "
                   "(what a rebaseline would adopt)")
     out.print("dry run: nothing recorded" if r["dry_run"] else f"recorded entry {r['id']} (gauge)")

@@ -146,7 +146,9 @@ def log(snap: Snapshot) -> list[dict[str, Any]]:
                    engine=shown.get("engine"), amount=_amount(shown.data))
         row["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > 3600.0
         if e.kind in (GAUGE, REBASELINE):
-            row.update(tank=e.get("tank"), gauge=e.get("gauge"), reason=e.get("reason") or None)
+            row.update(tank=e.get("tank"), reason=e.get("reason") or None)
+            if e.kind == REBASELINE:
+                row["gauge"] = e.get("gauge")
         if shown.get("plan") is not None and e.kind != CORRECT:
             row["plan"] = shown.get("plan")
         if e.kind == PLAN:

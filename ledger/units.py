@@ -1,6 +1,7 @@
 """The one place where text with units becomes SI floats (pint, loaded only when a unit is written).
 
-A bare number is taken in the field's base unit (kg, s, N, deg, m/s, Pa, K, m^3). Every value must be
+A bare number is taken in the field's base unit (kg, s, N, deg, m/s, Pa, K, m^3); a temperature
+difference (a sensor sigma) reads '0.5 degC' as 0.5 K. Every value must be
 finite; signs are checked by the caller's rule. Errors name the field and what was expected.
 """
 from __future__ import annotations
@@ -21,6 +22,7 @@ DIMENSIONS: dict[str, tuple[str, str]] = {
     "speed": ("m/s", "[length] / [time]"),
     "pressure": ("Pa", "[mass] / [length] / [time] ** 2"),
     "temperature": ("K", "[temperature]"),
+    "temperature_difference": ("K", "[temperature]"),
     "volume": ("m^3", "[length] ** 3"),
 }
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
@@ -39,13 +41,15 @@ def _from_pint(number: float, unit: str, dimension: str, where: str) -> float:
     ureg = registry()
     base, dims = DIMENSIONS[dimension]
     unit = unit.replace("°C", "degC").replace("°F", "degF").replace("°", "deg")
+    if dimension == "temperature_difference":  # a spread, not a reading: 0.5 degC is 0.5 K
+        unit = {"degC": "delta_degC", "degF": "delta_degF", "celsius": "delta_degC"}.get(unit, unit)
     try:
         q = ureg.Quantity(number, unit)
         if dimension == "angle":
             if not q.dimensionless:
                 raise pint.DimensionalityError(q.units, "deg")
             return float(q.to("deg").magnitude)
-        if dimension == "temperature":
+        if dimension in ("temperature", "temperature_difference"):
             return float(q.to("kelvin").magnitude)
         return float(q.to(base.replace("^", "**")).magnitude)
     except pint.DimensionalityError:

@@ -55,6 +55,20 @@ def print_status(data: dict) -> None:
         tanks.add_row(esc(tid), esc(t["fluid"]), f"{t['load_kg']:.2f}", f"{t['remaining_kg']:.3f}",
                       f"{t['residual_kg']:.2f}", f"{t['usable_kg']:.3f}", f"{pct:.1f}")
     out.print(tanks)
+    gauged = {tid: t["gauge"] for tid, t in data["tanks"].items() if t.get("gauge")}
+    if gauged:
+        table = Table(title="Latest gauge reading per tank, against the bookkeeping then", title_justify="left",
+                      box=None, pad_edge=False, header_style="bold")
+        for col in ("tank", "date", "gauged kg", "+- kg", "book kg", "diff kg", "sigmas", "verdict"):
+            table.add_column(col, justify="left" if col in ("tank", "date", "verdict") else "right")
+        for tid, g in gauged.items():
+            verdict = "BEYOND 3 SIGMA" if g["flagged"] else "agrees"
+            if g.get("adopted_by"):
+                verdict += f"; adopted (entry {g['adopted_by']})"
+            table.add_row(esc(tid), g["at"][:10], f"{g['propellant_kg']:.3f}", f"{g['sigma_kg']:.3f}",
+                          f"{g['bookkeeping_kg']:.3f}", f"{g['difference_kg']:+.3f}", f"{g['difference_sigma']:+.2f}",
+                          f"[bold red]{verdict}[/]" if g["flagged"] else verdict)
+        out.print(table)
     engines = Table(title="Engines", title_justify="left")
     for col in ("engine", "dv available m/s", "dv free m/s", "limiting tank"):
         engines.add_column(col, justify="left" if col in ("engine", "limiting tank") else "right")

@@ -15,9 +15,12 @@ BURN, PLAN, MASS, USE, WITHDRAW, CORRECT = "burn", "plan", "mass", "use", "withd
 HANDOVER = "handover"
 """A shift handover: who handed over to whom and the window covered (data: from, to, window_start,
 window_end in POSIX seconds). It changes no state; it marks where the next "since last" window starts."""
-KINDS = (BURN, PLAN, MASS, USE, WITHDRAW, CORRECT, HANDOVER)
+GAUGE, REBASELINE = "gauge", "rebaseline"
+KINDS = (BURN, PLAN, MASS, USE, WITHDRAW, CORRECT, HANDOVER, GAUGE, REBASELINE)
 PROPULSIVE = (BURN, USE)
-EVENT_KINDS = frozenset((BURN, USE, MASS))
+EVENT_KINDS = frozenset((BURN, USE, MASS, REBASELINE))
+"""Entries the replay steps through. A gauge reading is a record, not an event (it changes nothing by
+itself); a re-baseline sets one tank's bookkeeping to an adopted value from its ``at`` on."""
 AMOUNT_FIELDS = ("dv", "duration", "propellant")
 """Fields of a burn or use in SI: dv in m/s, duration in s, propellant in kg (exactly one is set)."""
 
@@ -50,7 +53,7 @@ class Resolved:
     """The ledger after corrections: events to replay, plans still pending, and what was superseded."""
 
     events: tuple[Entry, ...]
-    """Burns, uses and mass changes with corrections applied, in replay order (at, seq)."""
+    """Burns, uses, mass changes and re-baselines with corrections applied, in replay order (at, seq)."""
     pending: tuple[Entry, ...]
     """Plans neither executed nor withdrawn (corrected values applied), in order of planned time."""
     superseded: frozenset[int]

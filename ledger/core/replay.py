@@ -1,9 +1,13 @@
-"""Replay of the ledger as one prefix scan.
+"""Replay of the ledger as prefix scans.
 
 Every event is an affine step on the craft's mass: a burn given by delta-v scales it by exp(-dv/ve), a
 burn or use given by duration or propellant subtracts, a mass change adds. Composing affine steps is a
 cumulative product and a cumulative sum, so the whole history replays in a few numpy calls instead of
 a Python loop per entry; ``replay_loop`` is the plain reference the tests and benchmarks compare with.
+
+A re-baseline sets one tank to an adopted value, so its step depends on the state (mass changes by
+adopted minus bookkeeping). The history is therefore cut at re-baselines into segments, each one scan;
+a ledger holds few re-baselines, so the loop over segments costs nothing measurable.
 """
 from __future__ import annotations
 
@@ -13,9 +17,9 @@ from typing import Sequence
 import numpy as np
 
 from .craft import Craft
-from .entries import BURN, MASS, USE, Entry
+from .entries import BURN, MASS, REBASELINE, USE, Entry
 
-STEP_SCALE, STEP_DRAW, STEP_MASS = 0, 1, 2
+STEP_SCALE, STEP_DRAW, STEP_MASS, STEP_REBASE = 0, 1, 2, 3
 
 
 @dataclass(frozen=True)
@@ -24,8 +28,9 @@ class Steps:
 
     kind: np.ndarray      # int8, STEP_*
     engine: np.ndarray    # int32
-    amount: np.ndarray    # float64: dv (m/s) for SCALE, kg for DRAW, signed kg for MASS
+    amount: np.ndarray    # float64: dv (m/s) for SCALE, kg for DRAW, signed kg for MASS, adopted kg for REBASE
     is_burn: np.ndarray   # bool: a burn (delivers delta-v) rather than a use or mass change
+    tank: np.ndarray | None = None  # int32: the re-baselined tank for REBASE steps, -1 otherwise
 
 
 def steps_from_events(craft: Craft, events: Sequence[Entry]) -> Steps:
@@ -37,11 +42,18 @@ def steps_from_events(craft: Craft, events: Sequence[Entry]) -> Steps:
     engine = np.full(n, -1, dtype=np.int32)
     amount = np.empty(n, dtype=float)
     is_burn = np.zeros(n, dtype=bool)
+    tank = np.full(n, -1, dtype=np.int32)
+    tanks = {t.id: i for i, t in enumerate(craft.tanks)}
     for i, ev in enumerate(events):
         d = ev.data
         if ev.kind == MASS:
             kind[i] = STEP_MASS
             amount[i] = d["delta"]
+            continue
+        if ev.kind == REBASELINE:
+            kind[i] = STEP_REBASE
+            tank[i] = tanks[d["tank"]]
+            amount[i] = d["remaining_kg"]
             continue
         e = index[d["engine"]]
         engine[i] = e
@@ -55,7 +67,7 @@ def steps_from_events(craft: Craft, events: Sequence[Entry]) -> Steps:
         dur = d.get("duration")
         kind[i] = STEP_DRAW
         amount[i] = flows[e] * dur if dur is not None else d["propellant"]
-    return Steps(kind, engine, amount, is_burn)
+    return Steps(kind, engine, amount, is_burn, tank)
 
 
 @dataclass(frozen=True)
@@ -70,6 +82,7 @@ class Replay:
     remaining: np.ndarray     # (n, tanks) kg left in each tank after each event
     mass_kg: float
     remaining_kg: np.ndarray  # (tanks,)
+    adjusted: np.ndarray | None = None  # (n, tanks) kg a re-baseline added (adopted - bookkeeping), else 0
 
 
 def _affine(steps: Steps, ve: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -103,23 +116,50 @@ def mass_scan(m0: float, a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return m
 
 
+def _scan(m: float, rem: np.ndarray, a: np.ndarray, b: np.ndarray, kind: np.ndarray, engine: np.ndarray,
+          fractions: np.ndarray) -> tuple[np.ndarray, ...]:
+    """One segment without re-baselines: masses after, propellant, drawn and remaining per tank."""
+    after = mass_scan(m, a, b)
+    before = np.concatenate(([m], after[:-1])) if len(after) else np.empty(0)
+    prop = np.where(kind == STEP_MASS, 0.0, before - after)
+    drawn = prop[:, None] * fractions[engine]  # engine -1 picks the zero row
+    return after, prop, drawn, rem - np.cumsum(drawn, axis=0), np.zeros(drawn.shape)
+
+
 def replay(craft: Craft, events: Sequence[Entry], steps: Steps | None = None) -> Replay:
     steps = steps if steps is not None else steps_from_events(craft, events)
     ve = craft.ve()
     m0 = craft.initial_mass_kg
     loads = craft.loads()
+    n, n_tanks = len(steps.kind), len(craft.tanks)
     a, b = _affine(steps, ve)
-    after = mass_scan(m0, a, b)
-    before = np.concatenate(([m0], after[:-1])) if len(after) else np.empty(0)
-    prop = np.where(steps.kind == STEP_MASS, 0.0, before - after)
-    fractions = np.vstack([craft.feed_fractions(), np.zeros((1, len(craft.tanks)))])
-    drawn = prop[:, None] * fractions[steps.engine]  # engine -1 picks the zero row
-    remaining = loads - np.cumsum(drawn, axis=0)
+    fractions = np.vstack([craft.feed_fractions(), np.zeros((1, n_tanks))])
+    cuts = np.flatnonzero(steps.kind == STEP_REBASE) if steps.tank is not None else ()
+    if len(cuts) == 0:
+        after, prop, drawn, remaining, adjusted = _scan(m0, loads, a, b, steps.kind, steps.engine, fractions)
+    else:
+        parts, m, rem, start = [], m0, loads, 0
+        for stop in [*cuts.tolist(), n]:
+            if stop > start:  # one scan over the affine steps between re-baselines
+                seg = slice(start, stop)
+                parts.append(_scan(m, rem, a[seg], b[seg], steps.kind[seg], steps.engine[seg], fractions))
+                m, rem = float(parts[-1][0][-1]), parts[-1][3][-1]
+            if stop < n:  # the re-baseline: the tank takes the adopted value, the craft mass the difference
+                t = int(steps.tank[stop])
+                adjusted = np.zeros((1, n_tanks))
+                adjusted[0, t] = float(steps.amount[stop]) - float(rem[t])
+                m += adjusted[0, t]
+                rem = rem.copy()
+                rem[t] = steps.amount[stop]
+                parts.append((np.array([m]), np.zeros(1), np.zeros((1, n_tanks)), rem[None, :], adjusted))
+            start = stop + 1
+        after, prop, drawn, remaining, adjusted = (np.concatenate(x) for x in zip(*parts))
+    before = np.concatenate(([m0], after[:-1])) if n else np.empty(0)
     with np.errstate(divide="ignore", invalid="ignore"):
         dv = np.where(steps.is_burn, ve[np.maximum(steps.engine, 0)] * np.log(before / after), 0.0)
-    final_mass = float(after[-1]) if len(after) else m0
-    final_remaining = remaining[-1].copy() if len(after) else loads.copy()
-    return Replay(before, after, prop, dv, drawn, remaining, final_mass, final_remaining)
+    final_mass = float(after[-1]) if n else m0
+    final_remaining = remaining[-1].copy() if n else loads.copy()
+    return Replay(before, after, prop, dv, drawn, remaining, final_mass, final_remaining, adjusted)
 
 
 def replay_loop(craft: Craft, events: Sequence[Entry]) -> tuple[float, np.ndarray]:
@@ -130,10 +170,17 @@ def replay_loop(craft: Craft, events: Sequence[Entry]) -> tuple[float, np.ndarra
     ve = craft.ve()
     flows = craft.mass_flows()
     index = {e.id: i for i, e in enumerate(craft.engines)}
+    tanks = {t.id: i for i, t in enumerate(craft.tanks)}
     for ev in events:
         d = ev.data
         if ev.kind == MASS:
             m += d["delta"]
+            continue
+        if ev.kind == REBASELINE:
+            t = tanks[d["tank"]]
+            m += d["remaining_kg"] - remaining[t]
+            remaining = remaining.copy()
+            remaining[t] = d["remaining_kg"]
             continue
         e = index[d["engine"]]
         if ev.kind == BURN and d.get("dv") is not None:

@@ -7,7 +7,8 @@ from datetime import datetime
 from typing import Any, Mapping
 
 from ..core.craft import Craft
-from ..core.entries import AMOUNT_FIELDS, BURN, CORRECT, HANDOVER, MASS, PLAN, USE, WITHDRAW, Entry, Resolved
+from ..core.entries import (AMOUNT_FIELDS, BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, USE, WITHDRAW,
+                            Entry, Resolved)
 from ..errors import InputError
 from .timefmt import iso, parse_time
 
@@ -107,6 +108,10 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
         return {"plan": _plan_ref(resolved, data.get("plan"), "a withdrawal")}
     if kind == HANDOVER:
         return _handover(data)
+    if kind == GAUGE:
+        return _gauge(craft, data)
+    if kind == REBASELINE:
+        return _rebaseline(craft, resolved, data)
     raise InputError(f"unknown entry kind '{kind}'")
 
 
@@ -123,6 +128,71 @@ def _handover(data: Mapping[str, Any]) -> dict[str, Any]:
     if start > end:
         raise InputError("--since: the window starts after it ends (a time in the future?)")
     out.update(window_start=start, window_end=end)
+    return out
+
+
+GAUGE_METHODS = ("blowdown PVT", "gas density")
+GAUGE_POSITIVE = ("pressure_pa", "temperature_k")
+GAUGE_FINITE = ("propellant_kg", "bookkeeping_kg", "difference_kg", "difference_sigma", "rebaseline_kg")
+GAUGE_SIGMAS = ("sigma_kg", "bookkeeping_sigma_kg", "combined_sigma_kg", "rebaseline_sigma_kg",
+                "pressure_sigma_pa", "temperature_sigma_k")
+
+
+def _tank(craft: Craft, tank: Any) -> str:
+    if tank not in craft.tank_ids:
+        raise InputError(f"--tank: unknown tank '{tank}' (tanks: {', '.join(craft.tank_ids)})")
+    return str(tank)
+
+
+def _gauge(craft: Craft, data: Mapping[str, Any]) -> dict[str, Any]:
+    """A gauge reading: its inputs and the estimate and comparison computed when it was taken, so that
+    reading the ledger later needs no property library."""
+    out = dict(data)
+    out["tank"] = _tank(craft, data.get("tank"))
+    if data.get("method") not in GAUGE_METHODS:
+        raise InputError(f"gauge: method must be one of {', '.join(GAUGE_METHODS)}")
+    for key in GAUGE_POSITIVE:
+        if _finite(data.get(key), f"gauge: {key}") <= 0:
+            raise InputError(f"gauge: {key} must be greater than zero")
+    for key in GAUGE_FINITE:
+        _finite(data.get(key), f"gauge: {key}")
+    for key in GAUGE_SIGMAS:
+        if _finite(data.get(key), f"gauge: {key}") < 0:
+            raise InputError(f"gauge: {key} must not be negative")
+    if not isinstance(data.get("flagged"), bool):
+        raise InputError("gauge: flagged must be true or false")
+    return out
+
+
+def adopted_by(resolved: Resolved, gauge_seq: int) -> int | None:
+    """The re-baseline entry that adopted gauge reading ``gauge_seq``, if any."""
+    for e in resolved.events:
+        if e.kind == REBASELINE and int(e.data.get("gauge", -1)) == gauge_seq:
+            return e.seq
+    return None
+
+
+def _rebaseline(craft: Craft, resolved: Resolved, data: Mapping[str, Any]) -> dict[str, Any]:
+    """A re-baseline: the adopted remaining and sigma for one tank, naming the gauge reading behind it."""
+    out = dict(data)
+    out["tank"] = _tank(craft, data.get("tank"))
+    try:
+        seq = int(str(data.get("gauge")).lstrip("#"))
+    except ValueError:
+        raise InputError(f"--gauge: expected an entry id such as 12, got {data.get('gauge')!r}") from None
+    reading = resolved.effective.get(seq)
+    if reading is None or reading.kind != GAUGE:
+        raise InputError(f"--gauge: entry {seq} is not a gauge reading")
+    if reading.data.get("tank") != out["tank"]:
+        raise InputError(f"--gauge: reading {seq} is of tank {reading.data.get('tank')}, not {out['tank']}")
+    earlier = adopted_by(resolved, seq)
+    if earlier is not None:
+        raise InputError(f"--gauge: reading {seq} was already adopted by entry {earlier}")
+    out["gauge"] = seq
+    if _finite(data.get("remaining_kg"), "rebaseline: remaining_kg") < 0:
+        raise InputError("rebaseline: the adopted remaining must not be negative")
+    if _finite(data.get("sigma_kg"), "rebaseline: sigma_kg") <= 0:
+        raise InputError("rebaseline: the adopted sigma must be greater than zero")
     return out
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 from typing import Any
 
 from ..core import capability as cap
-from ..core.entries import BURN, CORRECT, HANDOVER, MASS, PLAN, USE, WITHDRAW
+from ..core.entries import BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, USE, WITHDRAW
 from .forecast import forecast
 from .ledger import Snapshot
 from .timefmt import iso
@@ -18,6 +18,7 @@ LATE_AFTER_S = 3600.0
 def status(snap: Snapshot) -> dict[str, Any]:
     craft = snap.craft
     usable = snap.usable_kg
+    gauges = latest_gauges(snap)
     reserves = []
     for r in craft.reserves:
         reserves.append({"id": r.id, "engine": r.engine, "dv_m_s": r.dv_m_s})
@@ -30,7 +31,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
         "dry_mass_kg": craft.dry_mass_kg,
         "tanks": {
             t.id: {"fluid": t.fluid, "load_kg": t.load_kg, "remaining_kg": float(snap.state.remaining_kg[i]),
-                   "residual_kg": t.residual_kg, "usable_kg": float(usable[i])}
+                   "residual_kg": t.residual_kg, "usable_kg": float(usable[i]), "gauge": gauges.get(t.id)}
             for i, t in enumerate(craft.tanks)
         },
         "engines": {
@@ -47,6 +48,24 @@ def status(snap: Snapshot) -> dict[str, Any]:
     # Last, so that any low bounds already in the status (dv_free_low_m_s) give the low-bound dates too.
     out["forecast"] = forecast(snap, out)
     return out
+
+
+GAUGE_KEYS = ("propellant_kg", "sigma_kg", "bookkeeping_kg", "difference_kg", "difference_sigma", "flagged")
+
+
+def latest_gauges(snap: Snapshot) -> dict[str, dict[str, Any]]:
+    """Tank id -> the latest gauge reading's comparison (by reading time), from the stored values only:
+    no property library is loaded to show it."""
+    latest: dict[str, Any] = {}
+    for e in snap.resolved.effective.values():
+        if e.kind == GAUGE:
+            tank = e.data.get("tank")
+            if tank not in latest or (e.at, e.seq) >= (latest[tank].at, latest[tank].seq):
+                latest[tank] = e
+    adopted = {int(e.data["gauge"]): e.seq for e in snap.resolved.events if e.kind == REBASELINE}
+    return {tank: {"id": e.seq, "at": iso(e.at), "method": e.data.get("method"),
+                   **{k: e.data.get(k) for k in GAUGE_KEYS}, "adopted_by": adopted.get(e.seq)}
+            for tank, e in latest.items()}
 
 
 def plan_row(p) -> dict[str, Any]:
@@ -73,10 +92,14 @@ def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
 
 
 KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "WDRAW", CORRECT: "CORR",
-              HANDOVER: "HANDOVER"}
+              HANDOVER: "HANDOVER", GAUGE: "GAUGE", REBASELINE: "REBASE"}
 
 
 def _amount(data) -> str:
+    if data.get("method") is not None and data.get("propellant_kg") is not None:  # a gauge reading
+        return f"{data.get('tank')} {data['propellant_kg']:.3f}+-{data.get('sigma_kg', 0.0):.3f} kg"
+    if data.get("remaining_kg") is not None:  # a re-baseline
+        return f"{data.get('tank')} = {data['remaining_kg']:.3f} kg"
     if data.get("dv") is not None:
         return f"{data['dv']:.3f} m/s"
     if data.get("duration") is not None:
@@ -132,6 +155,10 @@ def log(snap: Snapshot) -> list[dict[str, Any]]:
         row.update(at=iso(shown.at), note=shown.note if e.kind != CORRECT else e.note,
                    engine=shown.get("engine"), amount=_amount(shown.data))
         row["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > LATE_AFTER_S
+        if e.kind in (GAUGE, REBASELINE):
+            row.update(tank=e.get("tank"), reason=e.get("reason") or None)
+            if e.kind == REBASELINE:
+                row["gauge"] = e.get("gauge")
         if shown.get("plan") is not None and e.kind != CORRECT:
             row["plan"] = shown.get("plan")
         if e.kind == PLAN:
@@ -143,6 +170,9 @@ def log(snap: Snapshot) -> list[dict[str, Any]]:
             row["propellant_kg"] = float(rep.propellant[i])
             row["dv_m_s"] = float(rep.dv[i])
             row["drawn_kg"] = {t: float(rep.drawn[i, k]) for k, t in enumerate(tank_ids) if rep.drawn[i, k] != 0}
+            if rep.adjusted is not None and rep.adjusted[i].any():
+                row["adjusted_kg"] = {t: float(rep.adjusted[i, k]) for k, t in enumerate(tank_ids)
+                                      if rep.adjusted[i, k] != 0}
         row["_order"] = (shown.at, e.seq)
         rows.append(row)
     rows.sort(key=lambda r: r.pop("_order"))

@@ -1,5 +1,6 @@
 """dv free by its closed form against a plain numerical search over the same definition, and replay
-properties (hypothesis): a burn never adds mass; the scan equals the loop; only `at` orders entries."""
+properties (hypothesis): a burn never adds mass; the scan (cut into segments at re-baselines) equals the
+loop; only `at` orders entries."""
 import math
 import random
 
@@ -61,13 +62,17 @@ event = st.one_of(
     st.tuples(st.just("burn"), engines, st.sampled_from(["dv", "duration", "propellant"]), st.floats(0, 40)),
     st.tuples(st.just("use"), engines, st.sampled_from(["duration", "propellant"]), st.floats(0, 2)),
     st.tuples(st.just("mass"), st.none(), st.just("delta"), st.floats(-5, 5)),
+    st.tuples(st.just("rebaseline"), st.none(), st.sampled_from(["ox", "fuel", "gn2"]), st.floats(0, 200)),
 )
 
 
 def build(items):
     out = []
     for i, (kind, engine, field, value) in enumerate(items, start=1):
-        data = {field: value} if engine is None else {"engine": engine, field: value}
+        if kind == "rebaseline":  # field is the tank; value the adopted remaining
+            data = {"tank": field, "remaining_kg": value, "sigma_kg": 0.5, "gauge": 0}
+        else:
+            data = {field: value} if engine is None else {"engine": engine, field: value}
         out.append(ev(i, kind, T0 + 60.0 * ((i * 7919) % 97), **data))
     return out
 
@@ -81,9 +86,14 @@ def test_scan_equals_loop_and_burns_never_add_mass(items):
     m, remaining = replay_loop(craft, events)
     assert rep.mass_kg == pytest.approx(m, rel=1e-9, abs=1e-9)
     assert rep.remaining_kg == pytest.approx(remaining, rel=1e-9, abs=1e-9)
-    propulsive = np.array([e.kind != "mass" for e in events], dtype=bool)
+    propulsive = np.array([e.kind not in ("mass", "rebaseline") for e in events], dtype=bool)
     assert np.all(rep.mass_after[propulsive] <= rep.mass_before[propulsive] + 1e-12)
     assert np.all(rep.propellant >= -1e-12)
+    for i, e in enumerate(events):  # a re-baseline sets its tank exactly and moves the mass by the same amount
+        if e.kind == "rebaseline":
+            t = craft.tank_index(e.data["tank"])
+            assert rep.remaining[i, t] == e.data["remaining_kg"]
+            assert rep.mass_after[i] - rep.mass_before[i] == pytest.approx(rep.adjusted[i, t], abs=1e-9)
 
 
 @settings(max_examples=100, deadline=None)

@@ -40,8 +40,8 @@ def test_two_writers_500_appends_each(tmp_path):
     for tag in ("alpha", "bravo"):  # each writer's entries keep its own order
         mine = [int(r["note"].split()[1]) for r in records if r["by"] == tag]
         assert mine == list(range(PER_WRITER))
-    interleaved = sum(1 for a, b in zip(records, records[1:]) if a["by"] != b["by"])
-    assert interleaved > 1  # they really ran at the same time
+    # Both were released together (_start_together); how often the lock alternates between them is up to
+    # the scheduler, so it is not asserted (a loaded machine may let one writer finish first).
 
 
 def test_a_plan_is_executed_once_when_two_processes_race(tmp_path):

@@ -1,0 +1,95 @@
+"""Gauging commands: gauge (a tank pressure and temperature reading) and rebaseline (adopt one).
+
+Exit status of ``gauge``: 0 when the reading agrees with the bookkeeping, 1 when it differs beyond
+3 sigma (the reading is still recorded: it is a fact), 2 on an error (nothing written).
+"""
+from __future__ import annotations
+
+from .common import add_json, console, dump_json, esc, open_ledger, qty, warn, when
+
+EXIT_FLAGGED = 1
+
+
+def register(sub) -> None:
+    p = sub.add_parser("gauge", help="propellant in a tank from its pressure and temperature, against the bookkeeping")
+    p.add_argument("--tank", required=True, help="tank id from the craft file")
+    p.add_argument("--pressure", required=True, help="tank pressure as read, e.g. '7.1 bar' or '6.2 MPa'")
+    p.add_argument("--temperature", required=True, help="tank temperature, e.g. '20 degC' or '293.15 K'")
+    p.add_argument("--pressure-sigma", help="1-sigma of the pressure reading (default 0.5 %% of an assumed full "
+                                            "scale: 15 kPa for liquid tanks, 100 kPa for gas-stored tanks)")
+    p.add_argument("--temperature-sigma", help="1-sigma of the temperature reading (default 0.5 K)")
+    p.add_argument("--at", help="time of the reading (ISO 8601; UTC unless an offset is given; default now)")
+    p.add_argument("--by", help="who records it (default: the operating-system user)")
+    p.add_argument("--note", help="free text kept with the entry")
+    p.add_argument("--dry-run", action="store_true", help="compute and show, record nothing")
+    add_json(p)
+    p.set_defaults(func=cmd_gauge)
+
+    p = sub.add_parser("rebaseline", help="adopt a gauge reading combined with the bookkeeping as the tank's value")
+    p.add_argument("--tank", required=True, help="tank id (must be the tank of the gauge reading)")
+    p.add_argument("--gauge", required=True, help="id of the gauge entry to adopt")
+    p.add_argument("--by", required=True, help="the person adopting the value (required)")
+    p.add_argument("--reason", help="why the value is adopted")
+    p.add_argument("--force", action="store_true",
+                   help="adopt even when the reading differs from the bookkeeping beyond 3 sigma")
+    p.add_argument("--note", help="free text kept with the entry")
+    add_json(p)
+    p.set_defaults(func=cmd_rebaseline)
+
+
+def cmd_gauge(args) -> int:
+    from ..services import gauging, views  # noqa: PLC0415
+
+    led = open_ledger(args)
+    p = qty(args.pressure, "pressure", "--pressure")
+    t = qty(args.temperature, "temperature", "--temperature")
+    p_sigma = qty(args.pressure_sigma, "pressure", "--pressure-sigma")
+    t_sigma = qty(args.temperature_sigma, "temperature_difference", "--temperature-sigma")
+    at = when(args)
+    snap = led.snapshot()
+    sigmas = gauging.default_sigmas(gauging.tank_of(snap, args.tank), p_sigma, t_sigma)
+    out = gauging.record_gauge(led, args.tank, p, t, sigmas, at=at, by=args.by, note=args.note,
+                               dry_run=args.dry_run)
+    out["caution"] = views.CAUTION
+    if args.json:
+        dump_json(out)
+    else:
+        print_reading(out)
+        warn(out["warnings"])
+    return EXIT_FLAGGED if out["flagged"] else 0
+
+
+def print_reading(r: dict) -> None:
+    out = console()
+    out.print(f"tank [bold]{esc(r['tank'])}[/] ({esc(r['fluid'])}, {esc(r['method'])}) at {esc(r['at'])}")
+    out.print(f"  reading      {r['pressure_pa'] / 1e5:.6g} bar, {r['temperature_k'] - 273.15:.2f} degC "
+              f"(+- {r['pressure_sigma_pa'] / 1e5:.3g} bar, {r['temperature_sigma_k']:.3g} K)")
+    out.print(f"  gauged       {r['propellant_kg']:10.3f} kg  +- {r['sigma_kg']:.3f} (1 sigma)")
+    out.print(f"  bookkeeping  {r['bookkeeping_kg']:10.3f} kg  +- {r['bookkeeping_sigma_kg']:.3f}")
+    out.print(f"  difference   {r['difference_kg']:+10.3f} kg  = {r['difference_sigma']:+.2f} sigma"
+              + ("" if r["flagged"] else ", within 3 sigma"))
+    if r["flagged"]:
+        out.print("  [bold red]BEYOND 3 SIGMA[/]: look for a leak, a sensor fault or a flow-model error first")
+    else:
+        out.print(f"  combined     {r['rebaseline_kg']:10.3f} kg  +- {r['rebaseline_sigma_kg']:.3f} "
+                  "(what a rebaseline would adopt)")
+    out.print("dry run: nothing recorded" if r["dry_run"] else f"recorded entry {r['id']} (gauge)")
+    out.print(f"[dim]{esc(r['caution'])}[/]")
+
+
+def cmd_rebaseline(args) -> int:
+    from ..services import gauging, views  # noqa: PLC0415
+
+    out = gauging.record_rebaseline(open_ledger(args), args.tank, args.gauge, args.by, reason=args.reason,
+                                    force=args.force, note=args.note)
+    if args.json:
+        dump_json({**out, "caution": views.CAUTION})
+        return 0
+    c = console()
+    c.print(f"recorded entry {out['id']} (rebaseline): tank {esc(out['tank'])} from {esc(out['at'])} is "
+            f"{out['remaining_kg']:.3f} +- {out['sigma_kg']:.3f} kg (bookkeeping was {out['bookkeeping_kg']:.3f}, "
+            f"change {out['change_kg']:+.3f} kg), adopted by {esc(out['by'])}")
+    c.print(f"remaining now {out['remaining_now_kg']:.3f} kg")
+    warn(out["warnings"])
+    c.print(f"[dim]{esc(views.CAUTION)}[/]")
+    return 0

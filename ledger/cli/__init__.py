@@ -12,7 +12,7 @@ import sys
 
 from ..errors import LedgerError
 
-COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.demo")
+COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.approvals", "ledger.cli.demo")
 EXIT_ERROR = 2
 
 

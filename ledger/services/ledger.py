@@ -10,7 +10,7 @@ import numpy as np
 from ..core import capability as cap
 from ..core.codec import craft_from_dict, craft_to_dict
 from ..core.craft import Craft
-from ..core.entries import BURN, CORRECT, PLAN, Entry, Resolved, apply_correction, resolve
+from ..core.entries import BURN, CORRECT, DECISIONS, MASS, PLAN, USE, Entry, Resolved, apply_correction, resolve
 from ..core.replay import Replay, replay
 from ..errors import InputError, StoreError
 from ..store.chain import Break
@@ -18,7 +18,7 @@ from ..store.ledgerfile import LedgerFile
 from .records import clean_text, entry_from_record, make_record, validate_data
 from .timefmt import iso, now
 
-CORRECTABLE = ("at", "note", "engine", "dv", "duration", "propellant", "delta")
+CORRECTABLE = ("at", "note", "engine", "dv", "duration", "propellant", "delta", "sigma")
 
 
 @dataclass(frozen=True)
@@ -35,6 +35,8 @@ class Snapshot:
     engines: tuple[cap.EngineCapability, ...]
     integrity: Break | None
     warnings: tuple[str, ...] = field(default_factory=tuple)
+    head: tuple[int, str] = (0, "")
+    """(seq, hash) of the chain's last link in the records this snapshot was built from."""
 
     @property
     def usable_kg(self) -> np.ndarray:
@@ -81,7 +83,9 @@ def snapshot_from(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[
     state = cap.State(rep.mass_kg, rep.remaining_kg)
     engines = tuple(cap.capability(craft, state))
     warnings = _warnings(craft, resolved.events, rep, state, engines, integrity)
-    return Snapshot(path, craft, meta, entries, resolved, rep, state, engines, integrity, tuple(warnings))
+    last = records[-1] if records else meta
+    head = (int(last.get("seq", len(records))), str(last.get("hash", "")))
+    return Snapshot(path, craft, meta, entries, resolved, rep, state, engines, integrity, tuple(warnings), head)
 
 
 class Ledger:
@@ -140,6 +144,10 @@ class Ledger:
         current = snap.resolved.effective[root]
         if current.kind == CORRECT:
             raise InputError(f"--entry: entry {seq} cannot be corrected")
+        if current.kind in DECISIONS:
+            raise InputError(f"--entry: entry {seq} is an {current.kind} decision; record a new approve or reject instead")
+        if "sigma" in changes and current.kind not in (BURN, USE, MASS):
+            raise InputError(f"--sigma: a {current.kind} has no measured amount; sigmas belong to burns, uses and mass changes")
         merged = apply_correction(current, changes)
         data = dict(merged.data)
         plan = data.pop("plan", None) if merged.kind == BURN else None

@@ -2,16 +2,13 @@
 
 Each sample draws the craft's uncertain figures (dry mass, loads, Isp and thrust per engine: Gaussian,
 one sigma from the craft file or ``core.sigmas``) and every entry's amount (Gaussian with the entry's
-sigma), then replays the ledger. Engine errors are systematic (shared by all burns of a sample); entry
-errors are independent.
+sigma), then replays the ledger. Engine errors are systematic (shared by every burn of a sample); entry
+errors are independent. A duration's sigma becomes kilograms at the engine's nominal mass flow (it
+stands for the flow's firing-to-firing repeatability); the sample's own flow scales the duration.
 
-Samples run in chunks, each a (samples x segments) prefix scan, so memory stays bounded. The ledger is
-first compressed without changing the answer's distribution: amounts that subtract from the mass (draws
-by duration or propellant, mass changes) commute, so a run of them is one additive segment; a run of
-burns by delta-v on one engine is one scaling segment (exp(-dv1/ve)·exp(-dv2/ve) = exp(-(dv1+dv2)/ve)).
-Sums of independent Gaussians are Gaussian with variances added. Within an additive segment only the
-total mass change needs its own random draw; how its error splits between engines is drawn from the
-exact conditional Gaussian (see ``_draws``), so the random numbers per sample are one per segment.
+The ledger is compressed first (``core.segments``), then samples run in chunks, each a (samples x
+segments) prefix scan sized to stay in the processor's cache, so memory stays bounded whatever the
+sample count. ``simulate_loop`` is the plain per-sample, per-entry reference for tests and benchmarks.
 """
 from __future__ import annotations
 
@@ -21,10 +18,10 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-from .capability import fly_many
 from .craft import G0, Craft
 from .entries import BURN, MASS, Entry
 from .replay import scan_log
+from .segments import Segments, segments
 from .sigmas import craft_sigmas, entry_sigma
 
 DEFAULT_SEED = 24301
@@ -33,72 +30,7 @@ DEFAULT_CHUNK = 1000
 CELLS_PER_CHUNK = 1 << 18
 """Upper bound on samples x segments per chunk: 2 MB per float64 array, so a chunk's arrays stay in the
 processor's cache (measured 2-3x faster than 1000 x 4000 chunks on the project machine)."""
-EPS_KG = 1e-9
 Progress = Callable[[int, int], None]
-
-
-@dataclass(frozen=True)
-class Segments:
-    """The ledger compressed for sampling: K segments in replay order, each scaling or additive."""
-
-    scale: np.ndarray           # (K,) bool: a run of delta-v burns on one engine
-    engine: np.ndarray          # (K,) engine of a scaling segment, -1 for additive ones
-    dv: np.ndarray              # (K,) m/s, summed over the run
-    dv_var: np.ndarray          # (K,) (m/s)^2
-    duration: np.ndarray        # (K, engines) s of firing, drawn at the sample's mass flow
-    duration_var: np.ndarray    # (K, engines)
-    propellant: np.ndarray      # (K, engines) kg drawn directly
-    propellant_var: np.ndarray  # (K, engines)
-    delta: np.ndarray           # (K,) kg of mass changes
-    delta_var: np.ndarray       # (K,)
-    entries: int
-
-    def __len__(self) -> int:
-        return len(self.scale)
-
-
-def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
-    """Compress resolved events (replay order) into segments; sigmas default through ``core.sigmas``."""
-    n, n_eng = len(events), len(craft.engines)
-    index = {e.id: i for i, e in enumerate(craft.engines)}
-    code = np.empty(n, dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass change
-    engine = np.full(n, -1, dtype=np.int64)
-    amount = np.empty(n)
-    var = np.empty(n)
-    for i, ev in enumerate(events):
-        d = ev.data
-        if ev.kind == MASS:
-            field = "delta"
-            code[i] = 3
-        else:
-            engine[i] = index[d["engine"]]
-            field = ("dv" if ev.kind == BURN and d.get("dv") is not None else
-                     "duration" if d.get("duration") is not None else "propellant")
-            code[i] = {"dv": 0, "duration": 1, "propellant": 2}[field]
-        amount[i] = d[field]
-        var[i] = entry_sigma(d, field) ** 2
-    is_scale = code == 0
-    start = np.ones(n, dtype=bool)
-    start[1:] = (is_scale[1:] != is_scale[:-1]) | (is_scale[1:] & (engine[1:] != engine[:-1]))
-    seg = np.cumsum(start) - 1
-    k = int(seg[-1]) + 1 if n else 0
-
-    def total(mask: np.ndarray, values: np.ndarray) -> np.ndarray:
-        return np.bincount(seg[mask], values[mask], minlength=k)
-
-    def per_engine(c: int, values: np.ndarray) -> np.ndarray:
-        out = np.zeros(k * n_eng)
-        m = code == c
-        np.add.at(out, seg[m] * n_eng + engine[m], values[m])
-        return out.reshape(k, n_eng)
-
-    return Segments(
-        scale=is_scale[start], engine=np.where(is_scale[start], engine[start], -1),
-        dv=total(is_scale, amount), dv_var=total(is_scale, var),
-        duration=per_engine(1, amount), duration_var=per_engine(1, var),
-        propellant=per_engine(2, amount), propellant_var=per_engine(2, var),
-        delta=total(code == 3, amount), delta_var=total(code == 3, var), entries=n,
-    )
 
 
 @dataclass(frozen=True)
@@ -289,56 +221,34 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
     return Samples(mass, remaining, ve, seed, len(seg))
 
 
-@dataclass(frozen=True)
-class SampleCheck:
-    intact: np.ndarray          # (S,) bool: every reserve still flyable after the commitments and the burn
-    dv_free_after: np.ndarray   # (S,) m/s for the burn's engine (0 where a tank goes short)
-
-    @property
-    def probability(self) -> float:
-        return float(self.intact.mean())
-
-    @property
-    def standard_error(self) -> float:
-        p = self.probability
-        return math.sqrt(max(p * (1.0 - p), 0.0) / len(self.intact))
-
-
-def check_samples(craft: Craft, s: Samples, engine_id: str, dv: float,
-                  commitments: Sequence[tuple[str, float]] = ()) -> SampleCheck:
-    """``capability.check`` for every sample: fly commitments, the burn, then the reserves."""
-    from .capability import dv_available_many, dv_free_many  # noqa: PLC0415 - same module family
-
-    m1, r1, _ = fly_many(craft, s.mass_kg, s.remaining_kg, list(commitments) + [(engine_id, dv)], ve=s.ve)
-    _, r2, _ = fly_many(craft, m1, r1, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve)
-    intact = np.all(r2 - craft.residuals() >= -EPS_KG, axis=1)
-    e = craft.engine_index(engine_id)
-    free, _, _ = dv_free_many(craft, m1, r1, e, ve=s.ve)
-    avail, _ = dv_available_many(craft, m1, r1, e, ve=s.ve)
-    burn_ok = np.all(r1 - craft.residuals() >= -EPS_KG, axis=1)
-    return SampleCheck(intact, np.where(intact & burn_ok, np.minimum(free, avail), 0.0))
-
-
-def capability_samples(craft: Craft, s: Samples) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Usable per tank (S, tanks), dv available and dv free per engine (S, engines) for every sample."""
-    from .capability import dv_available_many, dv_free_many  # noqa: PLC0415
-
-    usable = np.maximum(0.0, s.remaining_kg - craft.residuals())
-    avail = np.empty(s.ve.shape)
-    free = np.empty(s.ve.shape)
-    for e in range(len(craft.engines)):
-        avail[:, e], _ = dv_available_many(craft, s.mass_kg, s.remaining_kg, e, ve=s.ve)
-        f, _, _ = dv_free_many(craft, s.mass_kg, s.remaining_kg, e, ve=s.ve)
-        free[:, e] = np.minimum(f, avail[:, e])
-    return usable, avail, free
-
-
-def reserves_intact(craft: Craft, s: Samples) -> np.ndarray:
-    """(S,) bool: the reserves can be flown from each sample's state as it stands."""
-    _, r, _ = fly_many(craft, s.mass_kg, s.remaining_kg, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve)
-    return np.all(r - craft.residuals() >= -EPS_KG, axis=1)
-
-
-def low_bound(values: np.ndarray, confidence: float) -> float:
-    """The value exceeded with probability ``confidence`` (the lower empirical quantile, one-sided)."""
-    return float(np.quantile(values, 1.0 - confidence, method="lower"))
+def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int = DEFAULT_SEED) -> Samples:
+    """Reference: the same model, one sample and one entry at a time in plain Python (slow, obvious)."""
+    rng = np.random.default_rng(seed)
+    dry, loads, isp, thrust = _globals(craft, rng, samples)
+    frac = craft.feed_fractions()
+    index = {e.id: i for i, e in enumerate(craft.engines)}
+    cos = np.cos(np.radians([e.cant_deg for e in craft.engines]))
+    nominal_flow = craft.mass_flows()
+    mass = np.empty(samples)
+    remaining = np.empty((samples, len(craft.tanks)))
+    ve_all = isp * G0 * cos
+    for s in range(samples):
+        m, rem = dry[s] + loads[s].sum(), loads[s].copy()
+        for ev in events:
+            d = ev.data
+            if ev.kind == MASS:
+                m += d["delta"] + entry_sigma(d, "delta") * rng.standard_normal()
+                continue
+            e = index[d["engine"]]
+            if ev.kind == BURN and d.get("dv") is not None:
+                dv = d["dv"] + entry_sigma(d, "dv") * rng.standard_normal()
+                p = -m * math.expm1(-dv / ve_all[s, e])
+            elif d.get("duration") is not None:
+                flow = thrust[s, e] / (isp[s, e] * G0)
+                p = flow * d["duration"] + nominal_flow[e] * entry_sigma(d, "duration") * rng.standard_normal()
+            else:
+                p = d["propellant"] + entry_sigma(d, "propellant") * rng.standard_normal()
+            m -= p
+            rem -= p * frac[e]
+        mass[s], remaining[s] = m, rem
+    return Samples(mass, remaining, ve_all, seed, len(events))

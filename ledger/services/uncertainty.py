@@ -11,6 +11,7 @@ from typing import Any, Sequence
 
 from ..core import capability as cap
 from ..core import montecarlo as mc
+from ..core import sampled
 from ..core.entries import APPROVE, DECISIONS
 from ..errors import InputError
 from .ledger import Snapshot
@@ -59,7 +60,7 @@ def check_from(snap: Snapshot, s: mc.Samples, engine: str, dv: float, confidence
                plans: Sequence[tuple[str, float]]) -> dict[str, Any]:
     """The nominal check plus its probability over the samples and the three-way verdict."""
     res = cap.check(snap.craft, snap.state, engine, dv, plans)
-    sc = mc.check_samples(snap.craft, s, engine, dv, plans)
+    sc = sampled.check_samples(snap.craft, s, engine, dv, plans)
     p = sc.probability
     verdict = "infeasible" if not res.feasible else "feasible" if p >= confidence else "marginal"
     return {
@@ -67,7 +68,7 @@ def check_from(snap: Snapshot, s: mc.Samples, engine: str, dv: float, confidence
         "probability": p, "probability_se": sc.standard_error, "confidence": confidence,
         "propellant_kg": res.propellant_kg, "propellant_by_tank_kg": res.propellant_by_tank,
         "dv_free_after_m_s": res.dv_free_after_m_s,
-        "dv_free_after_low_m_s": mc.low_bound(sc.dv_free_after, confidence),
+        "dv_free_after_low_m_s": sampled.low_bound(sc.dv_free_after, confidence),
         "limiting_tank": res.limiting_tank, "margin_after_reserves_kg": res.margin_by_tank,
         "commitments": [{"engine": e, "dv_m_s": d} for e, d in res.commitments],
         "samples": len(s), "seed": s.seed, "reason": res.reason, "caution": CAUTION,
@@ -133,25 +134,25 @@ def confidence_status(snapshot: Snapshot, confidence: float = DEFAULT_CONFIDENCE
     validate(confidence, samples)
     craft = snapshot.craft
     s = run(snapshot, samples, seed, progress)
-    usable, avail, free = mc.capability_samples(craft, s)
+    usable, avail, free = sampled.capability_samples(craft, s)
     nominal = {e.engine: e for e in snapshot.engines}
 
     def stats(x) -> dict[str, float]:
         return {"mean": float(x.mean()), "sd": float(x.std(ddof=1)) if len(x) > 1 else 0.0,
-                "low": mc.low_bound(x, confidence)}
+                "low": sampled.low_bound(x, confidence)}
 
     return {
         "confidence": confidence, "samples": len(s), "seed": s.seed, "segments": s.segments,
         "mass_kg": dict(stats(s.mass_kg), nominal=snapshot.state.mass_kg),
-        "tanks": {t.id: {"usable_kg": float(snapshot.usable_kg[i]), "usable_low_kg": mc.low_bound(usable[:, i], confidence),
+        "tanks": {t.id: {"usable_kg": float(snapshot.usable_kg[i]), "usable_low_kg": sampled.low_bound(usable[:, i], confidence),
                          "usable": stats(usable[:, i]), "remaining": stats(s.remaining_kg[:, i])}
                   for i, t in enumerate(craft.tanks)},
-        "engines": {e.id: {"dv_free_m_s": nominal[e.id].dv_free_m_s, "dv_free_low_m_s": mc.low_bound(free[:, i], confidence),
+        "engines": {e.id: {"dv_free_m_s": nominal[e.id].dv_free_m_s, "dv_free_low_m_s": sampled.low_bound(free[:, i], confidence),
                            "dv_available_m_s": nominal[e.id].dv_available_m_s,
-                           "dv_available_low_m_s": mc.low_bound(avail[:, i], confidence),
+                           "dv_available_low_m_s": sampled.low_bound(avail[:, i], confidence),
                            "dv_free": stats(free[:, i]), "dv_available": stats(avail[:, i])}
                     for i, e in enumerate(craft.engines)},
-        "reserves_probability": float(mc.reserves_intact(craft, s).mean()),
+        "reserves_probability": float(sampled.reserves_intact(craft, s).mean()),
         "approvals": {str(k): v for k, v in approvals(snapshot, s).items()},
         "caution": CAUTION,
     }

@@ -12,6 +12,7 @@ from hypothesis import strategies as st
 from ledger.core import capability as cap
 from ledger.core.craft import Craft, Engine, Reserve, Tank
 
+
 def craft_with(isp_main: float, isp_thr: float, reserve_dv: float) -> Craft:
     return Craft("c", 800.0, (Tank("ox", "MON-3", 300.0, 4.0), Tank("fuel", "MMH", 190.0, 3.0)),
                  (Engine("main", isp_main, 440.0, {"ox": 1.65, "fuel": 1.0}),
@@ -19,7 +20,9 @@ def craft_with(isp_main: float, isp_thr: float, reserve_dv: float) -> Craft:
                   Engine("ox-only", 250.0, 5.0, {"ox": 1.0})),
                  (Reserve("eol", "thr", reserve_dv), Reserve("deorbit", "ox-only", reserve_dv / 3)))
 
+
 state_st = st.tuples(st.floats(0.0, 1.05), st.floats(0.0, 1.05), st.floats(0.0, 400.0))
+
 
 @settings(max_examples=60, deadline=None)
 @given(st.lists(st.tuples(st.floats(250.0, 340.0), st.floats(250.0, 300.0), state_st), min_size=1, max_size=8),
@@ -41,6 +44,7 @@ def test_rows_with_their_own_exhaust_velocity_equal_the_one_state_figures(rows, 
             assert (one.tank_ids[lim[i]] if lim[i] >= 0 else None) == l1
             assert np.isclose(avail[i], cap.dv_available(one, s, e)[0], rtol=1e-12, atol=1e-9)
 
+
 @settings(max_examples=60, deadline=None)
 @given(st.floats(0.3, 1.0), st.floats(0.3, 1.0), st.floats(1.0, 200.0), st.sampled_from([0, 1, 2]))
 def test_dv_free_is_the_edge_of_the_reserves(fo, ff, reserve_dv, engine):
@@ -57,6 +61,7 @@ def test_dv_free_is_the_edge_of_the_reserves(fo, ff, reserve_dv, engine):
     assert margin.min() > -1e-6
     assert abs(margin[craft.tank_index(limiting)]) < 1e-6
     assert not cap.check(craft, state, eid, free * 1.001 + 1e-3).feasible
+
 
 def test_fly_many_rows_match_single_flights():
     craft = craft_with(320.0, 290.0, 20.0)

@@ -79,6 +79,7 @@ class _Plan:
     split: np.ndarray         # (additive segments, engines): how a unit error of b splits, see _additive
     resid: np.ndarray         # (engines, engines): square root of what the split leaves over
     onehot: np.ndarray        # (scaling segments, engines)
+    single: int | None        # the engine of every scaling segment, when there is only one
 
 
 def _columns(index: np.ndarray):
@@ -114,7 +115,8 @@ def _plan(craft: Craft, seg: Segments) -> _Plan:
     return _Plan(sc, seg.engine[sc], seg.dv[sc], np.sqrt(seg.dv_var[sc]), _columns(np.searchsorted(sc, add)),
                  _columns(np.searchsorted(add, sc)), seg.delta[add] - prop.sum(axis=1),
                  tuple((e, dur[:, e]) for e in range(n_eng) if (dur[:, e] != 0).any()),
-                 prop.sum(axis=0), dur.sum(axis=0), b_sd, split, resid, onehot)
+                 prop.sum(axis=0), dur.sum(axis=0), b_sd, split, resid, onehot,
+                 int(seg.engine[sc][0]) if sc.size and (seg.engine[sc] == seg.engine[sc][0]).all() else None)
 
 
 def _additive(p: _Plan, flow: np.ndarray, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
@@ -145,14 +147,14 @@ def _chunk(craft: Craft, p: _Plan, dry, loads, isp, thrust, rng: np.random.Gener
     ve = isp * G0 * np.cos(np.radians([e.cant_deg for e in craft.engines]))
     flow = thrust / (isp * G0)
     m0 = dry + loads.sum(axis=1)
-    used = np.zeros(flow.shape)
+    drawn = np.zeros(flow.shape)
     kept = np.zeros((n, ks + 1))
     log_a = None
     if ks:
         log_a = rng.standard_normal((n, ks)) if p.dv_sd.any() else np.zeros((n, ks))
         log_a *= p.dv_sd
         log_a += p.dv
-        one = p.eng[0] if (p.eng == p.eng[0]).all() else None
+        one = p.single
         log_a *= (-1.0 / ve[:, one:one + 1]) if one is not None else (-1.0 / ve)[:, p.eng]
         np.cumsum(log_a, axis=1, out=kept[:, 1:])
     np.exp(kept, out=kept)
@@ -160,19 +162,29 @@ def _chunk(craft: Craft, p: _Plan, dry, loads, isp, thrust, rng: np.random.Gener
     acc[:, 0] = m0
     b = None
     if ka:
-        b, used = _additive(p, flow, rng)
+        b, drawn = _additive(p, flow, rng)
         with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
             np.divide(b, kept[:, p.ns_before], out=acc[:, 1:])
         np.cumsum(acc, axis=1, out=acc)
     with np.errstate(over="ignore", invalid="ignore"):
         final = kept[:, -1] * acc[:, -1]
-        burned = kept[:, :-1] - kept[:, 1:]
-        burned *= acc[:, p.na_before]
-    if not (np.all(np.isfinite(final)) and np.all(np.isfinite(burned))):
+        burnt = _burned(p, kept, acc) if ks else 0.0
+    if not (np.all(np.isfinite(final)) and np.all(np.isfinite(burnt))):
         final, burned = _sequential(p, m0, log_a, b)
-    if ks:
-        used = used + burned @ p.onehot
+        burnt = burned @ p.onehot
+    used = drawn + burnt
     return final, used, ve
+
+
+def _burned(p: _Plan, kept: np.ndarray, acc: np.ndarray) -> np.ndarray:
+    """Propellant per engine burnt by the scaling segments: sum over i of (kept_i - kept_i+1)·acc_i."""
+    step = kept[:, :-1] - kept[:, 1:]
+    if p.single is not None:  # one engine: a row-wise dot product instead of a product array and a matmul
+        out = np.zeros((len(acc), p.onehot.shape[1]))
+        out[:, p.single] = np.einsum("ij,ij->i", step, acc[:, p.na_before])
+        return out
+    step *= acc[:, p.na_before]
+    return step @ p.onehot
 
 
 def _sequential(p: _Plan, m0, log_a, b):
@@ -194,31 +206,51 @@ def chunk_size(n_segments: int, chunk: int = DEFAULT_CHUNK) -> int:
 
 
 def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED,
-             chunk: int = DEFAULT_CHUNK, progress: Progress | None = None, seg: Segments | None = None) -> Samples:
+             chunk: int = DEFAULT_CHUNK, progress: Progress | None = None, seg: Segments | None = None,
+             workers: int = 1) -> Samples:
     """Sample the final state of the ledger ``samples`` times; ``progress(done, total)`` after each chunk.
 
-    The craft figures come from one random stream drawn up front and the entries' errors from another,
-    so a sample keeps its engine and load errors when the ledger grows (checks before and after an
-    entry compare like with like) and the chunk size never changes the craft figures drawn.
+    The craft figures come from one random stream drawn up front and each chunk's entry errors from its
+    own child stream, so the answer depends on the seed only (not on ``workers``, the threads the chunks
+    are shared between: numpy releases the interpreter lock inside its array loops), and a sample keeps
+    its engine and load errors when the ledger grows (checks before and after an entry compare like with
+    like).
     """
     if samples < 1:
         raise ValueError("samples must be at least 1")
     seg = segments(craft, events) if seg is None else seg
     plan = _plan(craft, seg)
-    craft_rng, entry_rng = (np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(2))
-    dry, loads, isp, thrust = _globals(craft, craft_rng, samples)
+    craft_seq, entry_seq = np.random.SeedSequence(seed).spawn(2)
+    dry, loads, isp, thrust = _globals(craft, np.random.default_rng(craft_seq), samples)
     size = chunk_size(len(seg), chunk)
+    bounds = [(lo, min(samples, lo + size)) for lo in range(0, samples, size)]
+    streams = entry_seq.spawn(len(bounds))
     mass = np.empty(samples)
     used = np.empty((samples, len(craft.engines)))
     ve = np.empty((samples, len(craft.engines)))
-    for lo in range(0, samples, size):
-        hi = min(samples, lo + size)
-        mass[lo:hi], used[lo:hi], ve[lo:hi] = _chunk(craft, plan, dry[lo:hi], loads[lo:hi], isp[lo:hi],
-                                                     thrust[lo:hi], entry_rng)
-        if progress is not None:
-            progress(hi, samples)
+
+    def one(i: int):
+        lo, hi = bounds[i]
+        return _chunk(craft, plan, dry[lo:hi], loads[lo:hi], isp[lo:hi], thrust[lo:hi],
+                      np.random.default_rng(streams[i]))
+
+    if workers > 1 and len(bounds) > 1:
+        from concurrent.futures import ThreadPoolExecutor  # noqa: PLC0415
+
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            results = pool.map(one, range(len(bounds)))
+            _collect(results, bounds, mass, used, ve, samples, progress)
+    else:
+        _collect(map(one, range(len(bounds))), bounds, mass, used, ve, samples, progress)
     remaining = loads - used @ craft.feed_fractions()
     return Samples(mass, remaining, ve, seed, len(seg))
+
+
+def _collect(results, bounds, mass, used, ve, samples, progress) -> None:
+    for (lo, hi), (m, u, v) in zip(bounds, results):
+        mass[lo:hi], used[lo:hi], ve[lo:hi] = m, u, v
+        if progress is not None:
+            progress(hi, samples)
 
 
 def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int = DEFAULT_SEED) -> Samples:

@@ -32,9 +32,9 @@ CRAFT_DEFAULTS: dict[str, Default] = {
 }
 
 ENTRY_DEFAULTS: dict[str, Default] = {
-    "dv": Default(0.01, "achieved delta-v from orbit determination, 1 % of the burn [practice]"),
-    "duration": Default(0.01, "burn-to-burn repeatability of the flow on top of the engine's own thrust/Isp "
-                              "bias, 1 %, worse in pulse mode (FIELD.md §7) [practice]"),
+    "dv": Default(0.01, "achieved delta-v from orbit determination; 1 % of the burn is a project choice [practice]"),
+    "duration": Default(0.01, "firing-to-firing repeatability of the flow on top of the engine's own "
+                              "thrust/Isp bias (worse in pulse mode, FIELD.md §7); 1 % is a project choice [practice]"),
     "propellant": Default(0.01, "propellant quoted from gauging, PVT 1.0 % at beginning of life (Shaik et al. "
                                 "2023, FIELD.md §3) [read]"),
     "delta": Default(0.001, "a separated or added item is weighed like the craft, ~0.1 % (FIELD.md §7) [memory]"),

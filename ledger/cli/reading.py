@@ -132,6 +132,8 @@ def cmd_log(args) -> int:
             kind += f" {r['state']}"
         if r["kind"] == "correct":
             kind += f" of #{r['corrects']}"
+        if r["kind"] in ("approve", "reject", "withdraw") and r.get("plan") is not None:
+            kind += f" #{r['plan']}"
         drawn = r.get("drawn_kg", {})
         table.add_row(str(r["id"]), esc(kind), r["at"][:16].replace("T", " "), esc(r.get("engine") or ""),
                       esc(r.get("amount", "")), f"{r['mass_after_kg']:.3f}" if "mass_after_kg" in r else "",

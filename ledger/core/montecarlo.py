@@ -201,6 +201,12 @@ def _sequential(p: _Plan, m0, log_a, b):
     return m[:, -1], -before * np.expm1(dense_a[:, p.sc])
 
 
+def generator(seed) -> np.random.Generator:
+    """numpy's SFC64 bit generator: its normals came out ~17 % faster than the default PCG64's here, and
+    normal draws are the largest single cost of a run."""
+    return np.random.Generator(np.random.SFC64(seed))
+
+
 def chunk_size(n_segments: int, chunk: int = DEFAULT_CHUNK) -> int:
     return max(1, min(chunk, CELLS_PER_CHUNK // max(n_segments, 1)))
 
@@ -221,7 +227,7 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
     seg = segments(craft, events) if seg is None else seg
     plan = _plan(craft, seg)
     craft_seq, entry_seq = np.random.SeedSequence(seed).spawn(2)
-    dry, loads, isp, thrust = _globals(craft, np.random.default_rng(craft_seq), samples)
+    dry, loads, isp, thrust = _globals(craft, generator(craft_seq), samples)
     size = chunk_size(len(seg), chunk)
     bounds = [(lo, min(samples, lo + size)) for lo in range(0, samples, size)]
     streams = entry_seq.spawn(len(bounds))
@@ -232,7 +238,7 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
     def one(i: int):
         lo, hi = bounds[i]
         return _chunk(craft, plan, dry[lo:hi], loads[lo:hi], isp[lo:hi], thrust[lo:hi],
-                      np.random.default_rng(streams[i]))
+                      generator(streams[i]))
 
     if workers > 1 and len(bounds) > 1:
         from concurrent.futures import ThreadPoolExecutor  # noqa: PLC0415
@@ -255,7 +261,7 @@ def _collect(results, bounds, mass, used, ve, samples, progress) -> None:
 
 def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int = DEFAULT_SEED) -> Samples:
     """Reference: the same model, one sample and one entry at a time in plain Python (slow, obvious)."""
-    rng = np.random.default_rng(seed)
+    rng = generator(seed)
     dry, loads, isp, thrust = _globals(craft, rng, samples)
     frac = craft.feed_fractions()
     index = {e.id: i for i, e in enumerate(craft.engines)}

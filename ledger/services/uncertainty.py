@@ -7,6 +7,7 @@ functions return plain dicts (JSON-ready), so the command line and the console s
 from __future__ import annotations
 
 import math
+import os
 from typing import Any, Sequence
 
 from ..core import capability as cap
@@ -21,6 +22,8 @@ from .views import CAUTION, status
 DEFAULT_CONFIDENCE = 0.99
 DEFAULT_SAMPLES = mc.DEFAULT_SAMPLES
 DEFAULT_SEED = mc.DEFAULT_SEED
+WORKERS = min(2, os.cpu_count() or 1)
+"""Threads the Monte Carlo's chunks are shared between (the answer does not depend on it)."""
 STALE_DV_ABS_M_S = 0.1
 STALE_DV_REL = 0.01
 """An approval goes stale when the re-computed check has another verdict, or its dv free after the burn
@@ -40,7 +43,8 @@ def validate(confidence: float, samples: int) -> None:
 
 def run(snap: Snapshot, samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED,
         progress: mc.Progress | None = None) -> mc.Samples:
-    return mc.simulate(snap.craft, snap.resolved.events, samples=samples, seed=seed, progress=progress)
+    return mc.simulate(snap.craft, snap.resolved.events, samples=samples, seed=seed, progress=progress,
+                       workers=WORKERS)
 
 
 def commitments(snap: Snapshot, approved_only: bool = False, exclude: int | None = None) -> list[tuple[str, float]]:

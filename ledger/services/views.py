@@ -4,7 +4,7 @@ from __future__ import annotations
 from typing import Any
 
 from ..core import capability as cap
-from ..core.entries import BURN, CORRECT, MASS, PLAN, USE, WITHDRAW
+from ..core.entries import APPROVE, BURN, CORRECT, MASS, PLAN, REJECT, USE, WITHDRAW
 from .ledger import Snapshot
 from .timefmt import iso
 
@@ -64,7 +64,8 @@ def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True) 
     }
 
 
-KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "WDRAW", CORRECT: "CORR"}
+KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "WDRAW", CORRECT: "CORR",
+              APPROVE: "APPR", REJECT: "REJ"}
 
 
 def _amount(data) -> str:

@@ -152,6 +152,10 @@ def cmd_correct(args) -> int:
         if field is None:  # the sigma belongs to the amount the entry already has
             snap = led.snapshot()
             field = _current_amount(snap, args.entry)
+            if field is None:
+                from ..errors import InputError  # noqa: PLC0415
+
+                raise InputError(f"--entry: entry {args.entry} has no measured amount for --sigma to belong to")
         changes["sigma"] = sigma(args, field)
     stored, warnings = led.correct(args.entry, changes, reason=args.reason, by=args.by, snap=snap)
     return _report(stored, warnings, args.json)

@@ -80,6 +80,7 @@ class _Plan:
     resid: np.ndarray         # (engines, engines): square root of what the split leaves over
     onehot: np.ndarray        # (scaling segments, engines)
     single: int | None        # the engine of every scaling segment, when there is only one
+    total_cov: np.ndarray     # covariance of (total mass error of all additive segments, their split)
 
 
 def _columns(index: np.ndarray):
@@ -112,18 +113,22 @@ def _plan(craft: Craft, seg: Segments) -> _Plan:
     cov = np.diag(v.sum(axis=0)) - split.T @ split
     lam, vec = np.linalg.eigh(cov)
     resid = vec * np.sqrt(np.maximum(lam, 0.0))
+    total_cov = np.block([[np.atleast_2d(var_b.sum()), -(b_sd @ split)[None, :]],
+                          [-(b_sd @ split)[:, None], split.T @ split]])
     return _Plan(sc, seg.engine[sc], seg.dv[sc], np.sqrt(seg.dv_var[sc]), _columns(np.searchsorted(sc, add)),
                  _columns(np.searchsorted(add, sc)), seg.delta[add] - prop.sum(axis=1),
                  tuple((e, dur[:, e]) for e in range(n_eng) if (dur[:, e] != 0).any()),
                  prop.sum(axis=0), dur.sum(axis=0), b_sd, split, resid, onehot,
-                 int(seg.engine[sc][0]) if sc.size and (seg.engine[sc] == seg.engine[sc][0]).all() else None)
+                 int(seg.engine[sc][0]) if sc.size and (seg.engine[sc] == seg.engine[sc][0]).all() else None,
+                 total_cov)
 
 
-def _additive(p: _Plan, flow: np.ndarray, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
-    """Mass change of every additive segment (n, Ka) and propellant drawn per engine (n, engines)."""
+def _additive(p: _Plan, flow: np.ndarray, rng: np.random.Generator, noise: bool = True):
+    """Mass change of every additive segment (n, Ka) and propellant drawn per engine (n, engines);
+    without ``noise`` the errors are left out (``_additive_errors`` adds them to the totals instead)."""
     n = flow.shape[0]
     drawn = p.drawn_const + flow * p.seconds
-    if p.b_sd.any():
+    if noise and p.b_sd.any():
         b = rng.standard_normal((n, p.b_sd.size))
         drawn -= b @ p.split
         drawn += rng.standard_normal(flow.shape) @ p.resid.T
@@ -136,7 +141,28 @@ def _additive(p: _Plan, flow: np.ndarray, rng: np.random.Generator) -> tuple[np.
     return b, drawn
 
 
-def _chunk(craft: Craft, p: _Plan, dry, loads, isp, thrust, rng: np.random.Generator):
+def _additive_errors(p: _Plan, inv_kept: np.ndarray, rng: np.random.Generator):
+    """The additive segments' errors in the totals, without a random number per segment.
+
+    Given the scaling factors, final mass, burnt and drawn propellant are linear in the segments' errors
+    eta_k = sd_k z_k. With every scaling segment on one engine (or none) the final mass gets kept_N·X,
+    X = sum eta_k / A_k; that engine's burns get Y - kept_N·X, Y = sum eta_k (kept_i - kept_i+1 telescopes);
+    the draws get G = -sum split_k z_k. (X, Y, G) is Gaussian with a covariance known per sample:
+    draw it directly (exact, as conditioning on everything else)."""
+    n, m = inv_kept.shape[0], p.split.shape[1]
+    r = inv_kept * p.b_sd
+    cov = np.empty((n, m + 2, m + 2))
+    cov[:, 0, 0] = np.einsum("ij,ij->i", r, r)
+    cov[:, 0, 1] = cov[:, 1, 0] = r @ p.b_sd
+    cov[:, 0, 2:] = -(r @ p.split)
+    cov[:, 2:, 0] = cov[:, 0, 2:]
+    cov[:, 1:, 1:] = p.total_cov
+    lam, vec = np.linalg.eigh(cov)
+    v = np.einsum("nij,nj->ni", vec, np.sqrt(np.maximum(lam, 0.0)) * rng.standard_normal((n, m + 2)))
+    return v[:, 0], v[:, 1], v[:, 2:] + rng.standard_normal((n, m)) @ p.resid.T
+
+
+def _chunk(craft: Craft, p: _Plan, dry, loads, isp, thrust, rng: np.random.Generator, dense: bool = False):
     """Final mass and propellant per engine for one chunk of n samples.
 
     kept[:, i] is the fraction of mass the scaling segments before i leave (A in replay.mass_scan) and
@@ -161,19 +187,27 @@ def _chunk(craft: Craft, p: _Plan, dry, loads, isp, thrust, rng: np.random.Gener
     acc = np.empty((n, ka + 1))
     acc[:, 0] = m0
     b = None
-    if ka:
-        b, drawn = _additive(p, flow, rng)
-        with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
-            np.divide(b, kept[:, p.ns_before], out=acc[:, 1:])
-        np.cumsum(acc, axis=1, out=acc)
-    with np.errstate(over="ignore", invalid="ignore"):
+    totals = ka and p.b_sd.any() and (ks == 0 or p.single is not None) and not dense
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        if ka:
+            b, drawn = _additive(p, flow, rng, noise=not totals)
+            inv = 1.0 / kept[:, p.ns_before]
+            np.multiply(b, inv, out=acc[:, 1:])
+            np.cumsum(acc, axis=1, out=acc)
         final = kept[:, -1] * acc[:, -1]
-        burnt = _burned(p, kept, acc) if ks else 0.0
+        burnt = _burned(p, kept, acc) if ks else np.zeros(flow.shape)
+        if totals:
+            x, y, g = _additive_errors(p, inv, rng)
+            final = final + kept[:, -1] * x
+            if ks:
+                burnt[:, p.single] += y - kept[:, -1] * x
+            drawn = drawn + g
     if not (np.all(np.isfinite(final)) and np.all(np.isfinite(burnt))):
+        if totals:
+            return _chunk(craft, p, dry, loads, isp, thrust, rng, dense=True)
         final, burned = _sequential(p, m0, log_a, b)
         burnt = burned @ p.onehot
-    used = drawn + burnt
-    return final, used, ve
+    return final, drawn + burnt, ve
 
 
 def _burned(p: _Plan, kept: np.ndarray, acc: np.ndarray) -> np.ndarray:

@@ -8,21 +8,22 @@ stands for the flow's firing-to-firing repeatability); the sample's own flow sca
 
 The ledger is compressed first (``core.segments``), then samples run in chunks, each a (samples x
 segments) prefix scan sized to stay in the processor's cache, so memory stays bounded whatever the
-sample count. ``simulate_loop`` is the plain per-sample, per-entry reference for tests and benchmarks.
+sample count. Normal draws are the largest cost, so they are kept to one per scaling segment and, for
+additive segments, one per segment (``_plan``) or, when a single engine flies the delta-v burns, none
+at all (``_additive_errors``); both are exact in distribution, not approximations. ``montecarlo_loop.simulate_loop`` is the plain per-sample, per-entry reference.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Callable, Sequence
 
 import numpy as np
 
 from .craft import G0, Craft
-from .entries import BURN, MASS, Entry
+from .entries import Entry
 from .replay import scan_log
 from .segments import Segments, segments
-from .sigmas import craft_sigmas, entry_sigma
+from .sigmas import craft_sigmas
 
 DEFAULT_SEED = 24301
 DEFAULT_SAMPLES = 10_000
@@ -291,36 +292,3 @@ def _collect(results, bounds, mass, used, ve, samples, progress) -> None:
         mass[lo:hi], used[lo:hi], ve[lo:hi] = m, u, v
         if progress is not None:
             progress(hi, samples)
-
-
-def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int = DEFAULT_SEED) -> Samples:
-    """Reference: the same model, one sample and one entry at a time in plain Python (slow, obvious)."""
-    rng = generator(seed)
-    dry, loads, isp, thrust = _globals(craft, rng, samples)
-    frac = craft.feed_fractions()
-    index = {e.id: i for i, e in enumerate(craft.engines)}
-    cos = np.cos(np.radians([e.cant_deg for e in craft.engines]))
-    nominal_flow = craft.mass_flows()
-    mass = np.empty(samples)
-    remaining = np.empty((samples, len(craft.tanks)))
-    ve_all = isp * G0 * cos
-    for s in range(samples):
-        m, rem = dry[s] + loads[s].sum(), loads[s].copy()
-        for ev in events:
-            d = ev.data
-            if ev.kind == MASS:
-                m += d["delta"] + entry_sigma(d, "delta") * rng.standard_normal()
-                continue
-            e = index[d["engine"]]
-            if ev.kind == BURN and d.get("dv") is not None:
-                dv = d["dv"] + entry_sigma(d, "dv") * rng.standard_normal()
-                p = -m * math.expm1(-dv / ve_all[s, e])
-            elif d.get("duration") is not None:
-                flow = thrust[s, e] / (isp[s, e] * G0)
-                p = flow * d["duration"] + nominal_flow[e] * entry_sigma(d, "duration") * rng.standard_normal()
-            else:
-                p = d["propellant"] + entry_sigma(d, "propellant") * rng.standard_normal()
-            m -= p
-            rem -= p * frac[e]
-        mass[s], remaining[s] = m, rem
-    return Samples(mass, remaining, ve_all, seed, len(events))

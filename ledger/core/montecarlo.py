@@ -10,7 +10,7 @@ The ledger is compressed first (``core.segments``), then samples run in chunks, 
 segments) prefix scan sized to stay in the processor's cache, so memory stays bounded whatever the
 sample count. Normal draws are the largest cost, so they are kept to one per scaling segment and, for
 additive segments, one per segment (``_plan``) or, when a single engine flies the delta-v burns, none
-at all (``_additive_errors``); both are exact in distribution, not approximations. ``montecarlo_loop.simulate_loop`` is the plain per-sample, per-entry reference.
+at all (``_one_engine``); both are exact in distribution, not approximations. ``montecarlo_loop.simulate_loop`` is the plain per-sample, per-entry reference.
 """
 from __future__ import annotations
 
@@ -22,7 +22,7 @@ import numpy as np
 from .craft import G0, Craft
 from .entries import Entry
 from .replay import scan_log
-from .segments import Segments, segments
+from .segments import Plan, Segments, prepare, segments
 from .sigmas import craft_sigmas
 
 DEFAULT_SEED = 24301
@@ -62,74 +62,11 @@ def _globals(craft: Craft, rng: np.random.Generator, n: int) -> tuple[np.ndarray
     return dry, loads, isp, thrust
 
 
-@dataclass(frozen=True)
-class _Plan:
-    """Index arrays and constants of one simulation, prepared once and shared by every chunk."""
-
-    sc: np.ndarray            # positions of scaling segments
-    eng: np.ndarray           # their engines
-    dv: np.ndarray
-    dv_sd: np.ndarray
-    ns_before: object         # per additive segment: scaling segments before it (see _columns)
-    na_before: object         # per scaling segment: additive segments before it
-    b_const: np.ndarray       # per additive segment: delta - propellant drawn directly
-    durations: tuple          # (engine, seconds per additive segment) for engines fired by duration
-    drawn_const: np.ndarray   # (engines,) kg drawn directly over the whole ledger
-    seconds: np.ndarray       # (engines,) s fired over the whole ledger
-    b_sd: np.ndarray          # per additive segment: sigma of its mass change
-    split: np.ndarray         # (additive segments, engines): how a unit error of b splits, see _additive
-    resid: np.ndarray         # (engines, engines): square root of what the split leaves over
-    onehot: np.ndarray        # (scaling segments, engines)
-    single: int | None        # the engine of every scaling segment, when there is only one
-    total_cov: np.ndarray     # covariance of (total mass error of all additive segments, their split)
-
-
-def _columns(index: np.ndarray):
-    """Column selector: a slice (a view, no copy) when the columns are consecutive, else the index array."""
-    if index.size and index[-1] - index[0] == index.size - 1:
-        return slice(int(index[0]), int(index[-1]) + 1)
-    return index
-
-
-def _plan(craft: Craft, seg: Segments) -> _Plan:
-    """Precompute the chunk-independent parts.
-
-    In additive segment k the mass changes by b = delta - sum_e d_e. The errors are Gaussian with fixed
-    variances (a duration's sigma is turned into kilograms at the engine's nominal mass flow: it stands
-    for the firing's flow repeatability; the sample's own flow scales the duration itself). With v_e the
-    variance of engine e's draw and V = var(b), the draws given b's error eta = sqrt(V)·z are Gaussian
-    with mean -v_e/sqrt(V)·z and covariance diag(v) - v v'/V (conditioning a joint Gaussian); summed over
-    the segments that remainder is one small Gaussian per sample. So a segment needs one random number
-    and the split of its error between engines stays exact.
-    """
-    n_eng = len(craft.engines)
-    sc, add = np.flatnonzero(seg.scale), np.flatnonzero(~seg.scale)
-    dur, prop = seg.duration[add], seg.propellant[add]
-    onehot = np.zeros((sc.size, n_eng))
-    onehot[np.arange(sc.size), seg.engine[sc]] = 1.0
-    v = craft.mass_flows() ** 2 * seg.duration_var[add] + seg.propellant_var[add]   # (Ka, engines)
-    var_b = seg.delta_var[add] + v.sum(axis=1)
-    b_sd = np.sqrt(var_b)
-    split = np.divide(v, b_sd[:, None], out=np.zeros_like(v), where=b_sd[:, None] > 0)
-    cov = np.diag(v.sum(axis=0)) - split.T @ split
-    lam, vec = np.linalg.eigh(cov)
-    resid = vec * np.sqrt(np.maximum(lam, 0.0))
-    total_cov = np.block([[np.atleast_2d(var_b.sum()), -(b_sd @ split)[None, :]],
-                          [-(b_sd @ split)[:, None], split.T @ split]])
-    return _Plan(sc, seg.engine[sc], seg.dv[sc], np.sqrt(seg.dv_var[sc]), _columns(np.searchsorted(sc, add)),
-                 _columns(np.searchsorted(add, sc)), seg.delta[add] - prop.sum(axis=1),
-                 tuple((e, dur[:, e]) for e in range(n_eng) if (dur[:, e] != 0).any()),
-                 prop.sum(axis=0), dur.sum(axis=0), b_sd, split, resid, onehot,
-                 int(seg.engine[sc][0]) if sc.size and (seg.engine[sc] == seg.engine[sc][0]).all() else None,
-                 total_cov)
-
-
-def _additive(p: _Plan, flow: np.ndarray, rng: np.random.Generator, noise: bool = True):
-    """Mass change of every additive segment (n, Ka) and propellant drawn per engine (n, engines);
-    without ``noise`` the errors are left out (``_additive_errors`` adds them to the totals instead)."""
+def _additive(p: Plan, flow: np.ndarray, rng: np.random.Generator):
+    """Mass change of every additive segment (n, Ka) and propellant drawn per engine (n, engines)."""
     n = flow.shape[0]
     drawn = p.drawn_const + flow * p.seconds
-    if noise and p.b_sd.any():
+    if p.b_sd.any():
         b = rng.standard_normal((n, p.b_sd.size))
         drawn -= b @ p.split
         drawn += rng.standard_normal(flow.shape) @ p.resid.T
@@ -142,39 +79,45 @@ def _additive(p: _Plan, flow: np.ndarray, rng: np.random.Generator, noise: bool 
     return b, drawn
 
 
-def _additive_errors(p: _Plan, inv_kept: np.ndarray, rng: np.random.Generator):
-    """The additive segments' errors in the totals, without a random number per segment.
+def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng: np.random.Generator):
+    """Final mass and propellant per engine when one engine (or none) flies every delta-v burn.
 
-    Given the scaling factors, final mass, burnt and drawn propellant are linear in the segments' errors
-    eta_k = sd_k z_k. With every scaling segment on one engine (or none) the final mass gets kept_N·X,
-    X = sum eta_k / A_k; that engine's burns get Y - kept_N·X, Y = sum eta_k (kept_i - kept_i+1 telescopes);
-    the draws get G = -sum split_k z_k. (X, Y, G) is Gaussian with a covariance known per sample:
-    draw it directly (exact, as conditioning on everything else)."""
-    n, m = inv_kept.shape[0], p.split.shape[1]
-    r = inv_kept * p.b_sd
-    cov = np.empty((n, m + 2, m + 2))
-    cov[:, 0, 0] = np.einsum("ij,ij->i", r, r)
-    cov[:, 0, 1] = cov[:, 1, 0] = r @ p.b_sd
-    cov[:, 0, 2:] = -(r @ p.split)
-    cov[:, 2:, 0] = cov[:, 0, 2:]
-    cov[:, 1:, 1:] = p.total_cov
-    lam, vec = np.linalg.eigh(cov)
-    v = np.einsum("nij,nj->ni", vec, np.sqrt(np.maximum(lam, 0.0)) * rng.standard_normal((n, m + 2)))
-    return v[:, 0], v[:, 1], v[:, 2:] + rng.standard_normal((n, m)) @ p.resid.T
-
-
-def _chunk(craft: Craft, p: _Plan, dry, loads, isp, thrust, rng: np.random.Generator, dense: bool = False):
-    """Final mass and propellant per engine for one chunk of n samples.
-
-    kept[:, i] is the fraction of mass the scaling segments before i leave (A in replay.mass_scan) and
-    acc[:, j] is m0 + sum of b/A over the first j additive segments, so the mass before a segment is
-    kept·acc and a scaling segment burns (kept_i - kept_i+1)·acc.
+    The final mass is kept_N·(m0 + sum_k b_k/A_k) and b is affine in the flows and the segments' errors
+    eta_k = sd_k z_k, so the sum is one matrix product of 1/A with constant columns: no scan. Whatever mass
+    went that the additive segments do not account for went through the one engine. Given the scaling,
+    the errors enter linearly: the final mass gets kept_N·X (X = sum eta_k/A_k), the additive segments'
+    total Y = sum eta_k, the draws G = -sum split_k z_k; (X, Y, G) is Gaussian with a covariance known per
+    sample, drawn directly (exact: conditioning on everything else), not one random number per segment.
     """
-    n, ks, ka = len(dry), p.sc.size, p.b_const.size
-    ve = isp * G0 * np.cos(np.radians([e.cant_deg for e in craft.engines]))
-    flow = thrust / (isp * G0)
-    m0 = dry + loads.sum(axis=1)
-    drawn = np.zeros(flow.shape)
+    n, m, nd = len(m0), p.split.shape[1], p.dur_engines.size
+    drawn = p.drawn_const + flow * p.seconds
+    total = p.b_const.sum() - flow @ p.seconds
+    acc = m0
+    if p.b_const.size:
+        inv = 1.0 / kept[:, p.ns_before]
+        cols = inv @ p.weights
+        acc = m0 + cols[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], cols[:, 1:1 + nd])
+    final = kept[:, -1] * acc
+    if p.b_sd.any():
+        cov = np.empty((n, m + 2, m + 2))
+        cov[:, 0, 0] = np.einsum("ij,ij,j->i", inv, inv, p.weights[:, 1 + nd])
+        cov[:, 0, 1] = cov[:, 1, 0] = cols[:, 1 + nd]
+        cov[:, 0, 2:] = -cols[:, 2 + nd:]
+        cov[:, 2:, 0] = cov[:, 0, 2:]
+        cov[:, 1:, 1:] = p.total_cov
+        lam, vec = np.linalg.eigh(cov)
+        v = np.einsum("nij,nj->ni", vec, np.sqrt(np.maximum(lam, 0.0)) * rng.standard_normal((n, m + 2)))
+        final = final + kept[:, -1] * v[:, 0]
+        total = total + v[:, 1]
+        drawn = drawn + v[:, 2:] + rng.standard_normal((n, m)) @ p.resid.T
+    if p.single is not None:
+        drawn[:, p.single] += m0 + total - final
+    return final, drawn
+
+
+def _scaling(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
+    """log of each scaling segment's factor (n, Ks) and kept = exp(cumulative sum), (n, Ks + 1)."""
+    ks = p.sc.size
     kept = np.zeros((n, ks + 1))
     log_a = None
     if ks:
@@ -185,33 +128,44 @@ def _chunk(craft: Craft, p: _Plan, dry, loads, isp, thrust, rng: np.random.Gener
         log_a *= (-1.0 / ve[:, one:one + 1]) if one is not None else (-1.0 / ve)[:, p.eng]
         np.cumsum(log_a, axis=1, out=kept[:, 1:])
     np.exp(kept, out=kept)
-    acc = np.empty((n, ka + 1))
-    acc[:, 0] = m0
-    b = None
-    totals = ka and p.b_sd.any() and (ks == 0 or p.single is not None) and not dense
+    return log_a, kept
+
+
+def _chunk(craft: Craft, p: Plan, dry, loads, isp, thrust, rng: np.random.Generator, dense: bool = False):
+    """Final mass and propellant per engine for one chunk of n samples.
+
+    kept[:, i] is the fraction of mass the scaling segments before i leave (A in replay.mass_scan) and
+    acc[:, j] is m0 + sum of b/A over the first j additive segments, so the mass before a segment is
+    kept·acc and a scaling segment burns (kept_i - kept_i+1)·acc. With one engine on the delta-v burns
+    ``_one_engine`` needs neither acc nor a random number per additive segment.
+    """
+    n, ks, ka = len(dry), p.sc.size, p.b_const.size
+    ve = isp * G0 * np.cos(np.radians([e.cant_deg for e in craft.engines]))
+    flow = thrust / (isp * G0)
+    m0 = dry + loads.sum(axis=1)
+    log_a, kept = _scaling(p, ve, rng, n)
     with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        if (ks == 0 or p.single is not None) and not dense:
+            final, used = _one_engine(p, m0, flow, kept, rng)
+            if np.all(np.isfinite(final)) and np.all(np.isfinite(used)):
+                return final, used, ve
+            return _chunk(craft, p, dry, loads, isp, thrust, rng, dense=True)
+        acc = np.empty((n, ka + 1))
+        acc[:, 0] = m0
+        b, drawn = None, np.zeros(flow.shape)
         if ka:
-            b, drawn = _additive(p, flow, rng, noise=not totals)
-            inv = 1.0 / kept[:, p.ns_before]
-            np.multiply(b, inv, out=acc[:, 1:])
+            b, drawn = _additive(p, flow, rng)
+            np.divide(b, kept[:, p.ns_before], out=acc[:, 1:])
             np.cumsum(acc, axis=1, out=acc)
         final = kept[:, -1] * acc[:, -1]
         burnt = _burned(p, kept, acc) if ks else np.zeros(flow.shape)
-        if totals:
-            x, y, g = _additive_errors(p, inv, rng)
-            final = final + kept[:, -1] * x
-            if ks:
-                burnt[:, p.single] += y - kept[:, -1] * x
-            drawn = drawn + g
     if not (np.all(np.isfinite(final)) and np.all(np.isfinite(burnt))):
-        if totals:
-            return _chunk(craft, p, dry, loads, isp, thrust, rng, dense=True)
         final, burned = _sequential(p, m0, log_a, b)
         burnt = burned @ p.onehot
     return final, drawn + burnt, ve
 
 
-def _burned(p: _Plan, kept: np.ndarray, acc: np.ndarray) -> np.ndarray:
+def _burned(p: Plan, kept: np.ndarray, acc: np.ndarray) -> np.ndarray:
     """Propellant per engine burnt by the scaling segments: sum over i of (kept_i - kept_i+1)·acc_i."""
     step = kept[:, :-1] - kept[:, 1:]
     if p.single is not None:  # one engine: a row-wise dot product instead of a product array and a matmul
@@ -222,7 +176,7 @@ def _burned(p: _Plan, kept: np.ndarray, acc: np.ndarray) -> np.ndarray:
     return step @ p.onehot
 
 
-def _sequential(p: _Plan, m0, log_a, b):
+def _sequential(p: Plan, m0, log_a, b):
     """Fallback for mass ratios beyond float range: the dense scan, which then steps one by one."""
     ks, ka = p.sc.size, p.b_const.size
     add = np.setdiff1d(np.arange(ks + ka), p.sc)
@@ -260,7 +214,7 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
     if samples < 1:
         raise ValueError("samples must be at least 1")
     seg = segments(craft, events) if seg is None else seg
-    plan = _plan(craft, seg)
+    plan = prepare(craft, seg)
     craft_seq, entry_seq = np.random.SeedSequence(seed).spawn(2)
     dry, loads, isp, thrust = _globals(craft, generator(craft_seq), samples)
     size = chunk_size(len(seg), chunk)

@@ -204,6 +204,10 @@ def test_same_seed_same_answer_and_craft_errors_survive_a_new_entry():
     c = mc.simulate(craft, events, samples=3000, seed=10)
     assert np.array_equal(a.mass_kg, b.mass_kg) and np.array_equal(a.remaining_kg, b.remaining_kg)
     assert not np.array_equal(a.mass_kg, c.mass_kg)
+    # Chunks run on their own random streams: sharing them between threads changes nothing.
+    t = mc.simulate(craft, events, samples=3000, seed=9, chunk=200, workers=2)
+    u = mc.simulate(craft, events, samples=3000, seed=9, chunk=200, workers=1)
+    assert np.array_equal(t.mass_kg, u.mass_kg) and np.array_equal(t.remaining_kg, u.remaining_kg)
     # One more small firing: the engine and load errors of every sample are drawn from their own stream,
     # so before/after compare like with like (near-perfect correlation of sample by sample).
     d = mc.simulate(craft, events + [ev(201, "use", engine="cg", propellant=0.01)], samples=3000, seed=9)

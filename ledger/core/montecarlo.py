@@ -206,10 +206,10 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
     """Sample the final state of the ledger ``samples`` times; ``progress(done, total)`` after each chunk.
 
     The craft figures come from one random stream drawn up front and each chunk's entry errors from its
-    own child stream, so the answer depends on the seed only (not on ``workers``, the threads the chunks
-    are shared between: numpy releases the interpreter lock inside its array loops), and a sample keeps
-    its engine and load errors when the ledger grows (checks before and after an entry compare like with
-    like).
+    own child stream, so the answer depends on the seed and the chunk size, not on ``workers`` (threads
+    sharing the chunks: numpy releases the interpreter lock inside its array loops), and a sample keeps
+    its engine and load errors when the ledger grows (checks before and after an entry compare like
+    with like).
     """
     if samples < 1:
         raise ValueError("samples must be at least 1")

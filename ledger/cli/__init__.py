@@ -12,8 +12,8 @@ import sys
 
 from ..errors import LedgerError
 
-COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.gauging", "ledger.cli.demo",
-                   "ledger.cli.handover", "ledger.cli.integrity")
+COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.approvals", "ledger.cli.gauging",
+                   "ledger.cli.demo", "ledger.cli.handover", "ledger.cli.integrity")
 EXIT_ERROR = 2
 
 

@@ -20,6 +20,7 @@ def register(sub) -> None:
     amount.add_argument("--duration", help="burn duration, e.g. '95 s' (propellant = thrust/(Isp g0) x duration)")
     amount.add_argument("--propellant", help="propellant used, e.g. '2.4 kg'")
     p.add_argument("--plan", help="id of the pending plan this burn executes")
+    add_sigma(p)
     add_write_options(p)
     p.set_defaults(func=cmd_burn)
 
@@ -31,6 +32,7 @@ def register(sub) -> None:
 
     p = sub.add_parser("mass", help="log a non-propulsive mass change (deployment, separation)")
     p.add_argument("--delta", required=True, help="signed, e.g. '-35 kg'", type=str)
+    add_sigma(p)
     add_write_options(p)
     p.set_defaults(func=cmd_mass)
 
@@ -39,6 +41,7 @@ def register(sub) -> None:
     amount = p.add_mutually_exclusive_group(required=True)
     amount.add_argument("--duration")
     amount.add_argument("--propellant")
+    add_sigma(p)
     add_write_options(p)
     p.set_defaults(func=cmd_use)
 
@@ -55,8 +58,32 @@ def register(sub) -> None:
     p.add_argument("--duration")
     p.add_argument("--propellant")
     p.add_argument("--delta")
+    add_sigma(p)
     add_write_options(p)
     p.set_defaults(func=cmd_correct)
+
+
+DIMENSION = {"dv": "speed", "duration": "time", "propellant": "mass", "delta": "mass"}
+
+
+def add_sigma(p) -> None:
+    p.add_argument("--sigma", help="one standard deviation of the amount, in the amount's dimension "
+                                   "(e.g. '0.02 m/s' with --dv); default: see docs/uncertainty.md")
+
+
+def sigma(args, field: str | None) -> float | None:
+    """--sigma in SI, read in the dimension of the amount it belongs to."""
+    if getattr(args, "sigma", None) is None:
+        return None
+    if field is None:
+        from ..errors import InputError  # noqa: PLC0415
+
+        raise InputError("--sigma: give the amount it belongs to (--dv, --duration, --propellant or --delta)")
+    return qty(args.sigma, DIMENSION[field], "--sigma")
+
+
+def _given(args, fields=("dv", "duration", "propellant", "delta")) -> str | None:
+    return next((f for f in fields if getattr(args, f, None) is not None), None)
 
 
 def _report(stored: dict, warnings: list[str], as_json: bool) -> int:
@@ -91,7 +118,8 @@ def _record(args, kind: str, data: dict) -> int:
 def cmd_burn(args) -> int:
     return _record(args, BURN, {"engine": args.engine, "dv": qty(args.dv, "speed", "--dv"),
                                 "duration": qty(args.duration, "time", "--duration"),
-                                "propellant": qty(args.propellant, "mass", "--propellant"), "plan": args.plan})
+                                "propellant": qty(args.propellant, "mass", "--propellant"), "plan": args.plan,
+                                "sigma": sigma(args, _given(args))})
 
 
 def cmd_plan(args) -> int:
@@ -99,12 +127,14 @@ def cmd_plan(args) -> int:
 
 
 def cmd_mass(args) -> int:
-    return _record(args, MASS, {"delta": qty(args.delta, "mass", "--delta", signed=True)})
+    return _record(args, MASS, {"delta": qty(args.delta, "mass", "--delta", signed=True),
+                                "sigma": sigma(args, "delta")})
 
 
 def cmd_use(args) -> int:
     return _record(args, USE, {"engine": args.engine, "duration": qty(args.duration, "time", "--duration"),
-                               "propellant": qty(args.propellant, "mass", "--propellant")})
+                               "propellant": qty(args.propellant, "mass", "--propellant"),
+                               "sigma": sigma(args, _given(args))})
 
 
 def cmd_withdraw(args) -> int:
@@ -116,5 +146,30 @@ def cmd_correct(args) -> int:
                "dv": qty(args.dv, "speed", "--dv"), "duration": qty(args.duration, "time", "--duration"),
                "propellant": qty(args.propellant, "mass", "--propellant"),
                "delta": qty(args.delta, "mass", "--delta", signed=True)}
-    stored, warnings = open_ledger(args).correct(args.entry, changes, reason=args.reason, by=args.by)
+    led = open_ledger(args)
+    snap = None
+    if args.sigma is not None:
+        field = _given(args)
+        if field is None:  # the sigma belongs to the amount the entry already has
+            snap = led.snapshot()
+            field = _current_amount(snap, args.entry)
+            if field is None:
+                from ..errors import InputError  # noqa: PLC0415
+
+                raise InputError(f"--entry: entry {args.entry} has no measured amount for --sigma to belong to")
+        changes["sigma"] = sigma(args, field)
+    stored, warnings = led.correct(args.entry, changes, reason=args.reason, by=args.by, snap=snap)
     return _report(stored, warnings, args.json)
+
+
+def _current_amount(snap, target) -> str | None:
+    """The amount field (dv, duration, propellant, delta) entry ``target`` has after its corrections."""
+    try:
+        seq = int(str(target).lstrip("#"))
+    except ValueError:
+        return None
+    by_seq = {e.seq: e for e in snap.entries}
+    while seq in by_seq and by_seq[seq].kind == "correct":
+        seq = int(by_seq[seq].data["entry"])
+    entry = snap.resolved.effective.get(seq)
+    return None if entry is None else next((f for f in DIMENSION if entry.get(f) is not None), None)

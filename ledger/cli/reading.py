@@ -1,20 +1,29 @@
 """Read commands: status, check, log, verify. Tables by rich, or JSON with --json."""
 from __future__ import annotations
 
-from ..services import views
+import sys
+
+from ..services import uncertainty, views
+from .approvals import add_confidence_options
 from .common import add_json, console, dump_json, esc, open_ledger, qty
+from .progress import Progress
 
 EXIT_INFEASIBLE = 1
+EXIT_MARGINAL = 3
+EXIT = {"feasible": 0, "marginal": EXIT_MARGINAL, "infeasible": EXIT_INFEASIBLE}
 
 
 def register(sub) -> None:
     p = sub.add_parser("status", help="propellant per tank, delta-v per engine, plans and warnings now")
+    add_confidence_options(p)
     add_json(p)
     p.set_defaults(func=cmd_status)
 
     p = sub.add_parser("check", help="check a proposed burn against the capability left (after pending plans)")
     p.add_argument("--engine", required=True)
     p.add_argument("--dv", required=True)
+    p.add_argument("--approved-only", action="store_true", help="count only approved pending plans as commitments")
+    add_confidence_options(p)
     add_json(p)
     p.set_defaults(func=cmd_check)
 
@@ -30,7 +39,8 @@ def register(sub) -> None:
 
 def cmd_status(args) -> int:
     snap = open_ledger(args).snapshot()
-    data = views.status(snap)
+    with Progress("sampling the ledger") as progress:
+        data = uncertainty.status_with_confidence(snap, args.confidence, args.samples, args.seed, progress)
     if args.json:
         dump_json(data)
         return 0
@@ -48,12 +58,15 @@ def print_status(data: dict) -> None:
     out.print(f"[bold]{esc(data['craft'])}[/]  mass {data['mass_kg']:.2f} kg  entries {data['entries']}  "
               f"chain {esc(data['integrity'])}")
     tanks = Table(title="Tanks", title_justify="left")
-    for col in ("tank", "fluid", "loaded kg", "remaining kg", "residual kg", "usable kg", "usable %"):
+    low = f"low {100 * data['confidence']:g}%" if "confidence" in data else None
+    for col in ("tank", "fluid", "loaded kg", "remaining kg", "residual kg", "usable kg") + ((low,) if low else ()) + (
+            "usable %",):
         tanks.add_column(col, justify="left" if col in ("tank", "fluid") else "right")
     for tid, t in data["tanks"].items():
         pct = 100.0 * t["usable_kg"] / max(t["load_kg"] - t["residual_kg"], 1e-12)
         tanks.add_row(esc(tid), esc(t["fluid"]), f"{t['load_kg']:.2f}", f"{t['remaining_kg']:.3f}",
-                      f"{t['residual_kg']:.2f}", f"{t['usable_kg']:.3f}", f"{pct:.1f}")
+                      f"{t['residual_kg']:.2f}", f"{t['usable_kg']:.3f}",
+                      *((f"{t['usable_low_kg']:.3f}",) if low else ()), f"{pct:.1f}")
     out.print(tanks)
     gauged = {tid: t["gauge"] for tid, t in data["tanks"].items() if t.get("gauge")}
     if gauged:
@@ -70,17 +83,23 @@ def print_status(data: dict) -> None:
                           f"[bold red]{verdict}[/]" if g["flagged"] else verdict)
         out.print(table)
     engines = Table(title="Engines", title_justify="left")
-    for col in ("engine", "dv available m/s", "dv free m/s", "limiting tank"):
+    for col in ("engine", "dv available m/s", "dv free m/s") + ((low,) if low else ()) + ("limiting tank",):
         engines.add_column(col, justify="left" if col in ("engine", "limiting tank") else "right")
     for eid, e in data["engines"].items():
-        engines.add_row(esc(eid), f"{e['dv_available_m_s']:.2f}", f"{e['dv_free_m_s']:.2f}", esc(e["limiting_tank"]))
+        engines.add_row(esc(eid), f"{e['dv_available_m_s']:.2f}", f"{e['dv_free_m_s']:.2f}",
+                        *((f"{e['dv_free_low_m_s']:.2f}",) if low else ()), esc(e["limiting_tank"]))
     out.print(engines)
+    if low:
+        u = data["uncertainty"]
+        out.print(f"[dim]{low}: value exceeded with probability {data['confidence']:g} over {u['samples']} samples "
+                  f"(seed {u['seed']}); reserves flyable now with probability {u['reserves_probability']:.4f}[/]")
     if data["reserves"]:
         out.print("Reserves held back: " + "; ".join(
             f"{esc(r['id'])} {r['dv_m_s']:.2f} m/s on {esc(r['engine'])}" for r in data["reserves"]))
     if data["pending_plans"]:
         out.print("Pending plans: " + "; ".join(
-            f"#{p['id']} {esc(p['engine'])} {p['dv_m_s']:.3f} m/s at {p['at']}" for p in data["pending_plans"]))
+            f"#{p['id']} {esc(p['engine'])} {p['dv_m_s']:.3f} m/s at {p['at']}"
+            + (f" ({p['approval']})" if p.get("approval", "none") != "none" else "") for p in data["pending_plans"]))
     for line in forecast_lines(data.get("forecast") or {}):
         out.print(line)
     for w in data["warnings"]:
@@ -110,23 +129,25 @@ def forecast_lines(fc: dict) -> list[str]:
 def cmd_check(args) -> int:
     snap = open_ledger(args).snapshot()
     dv = qty(args.dv, "speed", "--dv")
-    if args.engine not in snap.craft.engine_ids:
-        from ..errors import InputError  # noqa: PLC0415
-
-        raise InputError(f"--engine: unknown engine '{args.engine}' (engines: {', '.join(snap.craft.engine_ids)})")
-    data = views.check(snap, args.engine, dv)
+    with Progress("sampling the ledger") as progress:
+        data = uncertainty.confidence_check(snap, args.engine, dv, args.confidence, args.approved_only,
+                                            args.samples, args.seed, progress)
     if args.json:
         dump_json(data)
     else:
         out = console()
-        style = "bold green" if data["verdict"] == "feasible" else "bold red"
+        style = {"feasible": "bold green", "marginal": "bold yellow"}.get(data["verdict"], "bold red")
+        plans = "approved pending plan(s)" if args.approved_only else "pending plan(s)"
         out.print(f"[{style}]{data['verdict'].upper()}[/]  {esc(args.engine)} {dv:.3f} m/s "
-                  f"after {len(data['commitments'])} pending plan(s)")
+                  f"after {len(data['commitments'])} {plans}")
+        out.print(f"reserves intact with probability {data['probability']:.4f} (±{data['probability_se']:.4f}); "
+                  f"confidence asked {data['confidence']:g}")
         out.print(f"propellant needed {data['propellant_kg']:.3f} kg (" + ", ".join(
             f"{esc(t)} {kg:.3f}" for t, kg in data["propellant_by_tank_kg"].items()) + ")")
-        out.print(f"dv free after {data['dv_free_after_m_s']:.2f} m/s; {esc(data['reason'])}")
+        out.print(f"dv free after {data['dv_free_after_m_s']:.2f} m/s (low {data['dv_free_after_low_m_s']:.2f}); "
+                  f"{esc(data['reason'])}")
         out.print(f"[dim]{esc(data['caution'])}[/]")
-    return 0 if data["verdict"] == "feasible" else EXIT_INFEASIBLE
+    return EXIT[data["verdict"]]
 
 
 def cmd_log(args) -> int:
@@ -148,6 +169,8 @@ def kind_label(r: dict) -> str:
         label += f" {r['state']}"
     if r["kind"] == "correct":
         label = f"CORR #{r['corrects']}"
+    if r["kind"] in ("approve", "reject", "withdraw") and r.get("plan") is not None:
+        label += f" #{r['plan']}"
     if r.get("late"):
         label += " +late"
     return ("~" if r["superseded"] else "") + label

@@ -39,37 +39,111 @@ def usable(craft: Craft, state: State) -> np.ndarray:
     return np.maximum(0.0, state.remaining_kg - craft.residuals())
 
 
-def dv_available(craft: Craft, state: State, engine: int) -> tuple[float, str | None]:
-    """Delta-v from all the propellant the engine can draw before one of its feeds runs dry."""
+# --- the maths, vectorised over samples ---------------------------------------------------------
+# ``mass`` has shape (S,), ``remaining`` (S, tanks) and ``ve`` (engines,) or (S, engines); the scalar
+# functions below call these with S = 1, so nominal and Monte Carlo figures come from the same lines.
+
+def _ve(craft: Craft, ve) -> np.ndarray:
+    return craft.ve() if ve is None else np.asarray(ve, dtype=float)
+
+
+def dv_available_many(craft: Craft, mass, remaining, engine: int, ve=None) -> tuple[np.ndarray, np.ndarray]:
+    """Delta-v from everything ``engine`` can draw before one of its feeds runs dry, and that feed's index."""
+    mass, remaining = np.asarray(mass, dtype=float), np.asarray(remaining, dtype=float)
     frac = craft.feed_fractions()[engine]
-    fed = frac > 0
-    use = usable(craft, state)
-    per_feed = use[fed] / frac[fed]
-    k = int(np.argmin(per_feed))
-    x = float(per_feed[k])
-    m = state.mass_kg
-    limiting = [t.id for t, f in zip(craft.tanks, fed) if f][k]
-    if m <= 0 or m - x <= 0:
-        return 0.0, limiting
-    return float(craft.ve()[engine] * np.log(m / (m - x))), limiting
+    fed = np.flatnonzero(frac > 0)
+    use = np.maximum(0.0, remaining - craft.residuals())
+    per_feed = use[..., fed] / frac[fed]
+    k = np.argmin(per_feed, axis=-1)
+    x = np.take_along_axis(per_feed, k[..., None], axis=-1)[..., 0]
+    ok = (mass > 0) & (mass - x > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dv = np.where(ok, _ve(craft, ve)[..., engine] * np.log(mass / (mass - x)), 0.0)
+    return dv, fed[k]
 
 
-def reserve_draw_per_kg(craft: Craft, reserves=None) -> np.ndarray:
+def reserve_draw_per_kg(craft: Craft, reserves=None, ve=None) -> np.ndarray:
     """Propellant the reserves draw from each tank per kg of craft mass when they start (c_t).
 
     Reserve k at mass M uses M·(1-E_k)·prod_{j<k} E_j, drawn from its engine's tanks by the feed fractions.
+    With ``ve`` of shape (S, engines) the answer has shape (S, tanks).
     """
     reserves = craft.reserves if reserves is None else reserves
     frac = craft.feed_fractions()
-    ve = craft.ve()
-    c = np.zeros(len(craft.tanks))
-    carried = 1.0
+    ve = _ve(craft, ve)
+    c = np.zeros(ve.shape[:-1] + (len(craft.tanks),))
+    carried = np.ones(ve.shape[:-1])
     for r in reserves:
         e = craft.engine_index(r.engine)
-        step = np.exp(-r.dv_m_s / ve[e])
-        c += frac[e] * carried * (1.0 - step)
-        carried *= step
+        step = np.exp(-r.dv_m_s / ve[..., e])
+        c += frac[e] * (carried * (1.0 - step))[..., None]
+        carried = carried * step
     return c
+
+
+def dv_free_many(craft: Craft, mass, remaining, engine: int, ve=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Largest delta-v for ``engine`` now that still leaves every reserve flyable, per sample.
+
+    Returns (dv, limiting tank index or -1, reserves met). Every tank's margin after the reserves is
+    alpha + beta*E with E = exp(-dv/ve): beta > 0 bounds E from below (dv from above), beta < 0 from above.
+    """
+    mass, remaining = np.asarray(mass, dtype=float), np.asarray(remaining, dtype=float)
+    ve = _ve(craft, ve)
+    frac = craft.feed_fractions()[engine]
+    spare = remaining - craft.residuals()  # may be negative: already short
+    c = reserve_draw_per_kg(craft, ve=ve)
+    m = mass[..., None]
+    alpha = spare - m * frac
+    beta = m * (frac - c)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        bound = -alpha / beta
+    lower, upper = beta > 0, beta < 0
+    flat = ~(lower | upper) & ((frac > 0) | (c > 0))  # tanks neither this engine nor a reserve uses don't matter
+    flat_short = flat & (alpha < -EPS_KG)
+    lo_bound = np.where(lower, bound, -np.inf)
+    up_bound = np.where(upper, bound, np.inf)
+    has_lower = lower.any(axis=-1)
+    e_min = np.where(has_lower, lo_bound.max(axis=-1), 0.0)
+    e_max = np.minimum(np.where(upper.any(axis=-1), up_bound.min(axis=-1), 1.0), 1.0)
+    limiting = np.where(has_lower, lo_bound.argmax(axis=-1), -1)
+    empty = (e_min > e_max + 1e-12) | (e_min > 1.0 + 1e-12)
+    limiting = np.where(empty & (e_min <= 1.0), up_bound.argmin(axis=-1), limiting)
+    limiting = np.where(flat_short.any(axis=-1), flat_short.argmax(axis=-1), limiting)
+    met = ~empty & ~flat_short.any(axis=-1) & (mass > 0)
+    limiting = np.where(mass > 0, limiting, -1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dv = np.maximum(0.0, -ve[..., engine] * np.log(np.clip(e_min, 1e-300, 1.0)))
+    return np.where(met, dv, 0.0), limiting, met
+
+
+def fly_many(craft: Craft, mass, remaining, burns: Sequence[tuple[str, float]], ve=None):
+    """Fly impulsive burns (engine id, dv) in order; (mass, remaining, each burn's draw per tank) after."""
+    frac = craft.feed_fractions()
+    ve = _ve(craft, ve)
+    m = np.asarray(mass, dtype=float)
+    remaining = np.array(remaining, dtype=float)
+    draws = []
+    for engine_id, dv in burns:
+        e = craft.engine_index(engine_id)
+        p = -m * np.expm1(-dv / ve[..., e])
+        draw = p[..., None] * frac[e]
+        remaining = remaining - draw
+        m = m - p
+        draws.append(draw)
+    return m, remaining, draws
+
+
+# --- the nominal figures (one sample) -----------------------------------------------------------
+
+def _tank(craft: Craft, index) -> str | None:
+    index = int(index)
+    return None if index < 0 else craft.tank_ids[index]
+
+
+def dv_available(craft: Craft, state: State, engine: int) -> tuple[float, str | None]:
+    """Delta-v from all the propellant the engine can draw before one of its feeds runs dry."""
+    dv, k = dv_available_many(craft, np.array([state.mass_kg]), state.remaining_kg[None, :], engine)
+    return float(dv[0]), _tank(craft, k[0])
 
 
 def dv_free(craft: Craft, state: State, engine: int) -> tuple[float, str | None, bool]:
@@ -78,32 +152,8 @@ def dv_free(craft: Craft, state: State, engine: int) -> tuple[float, str | None,
     Returns (dv, limiting tank, reserves met). When no burn of this engine leaves the reserves flyable
     the answer is 0 with reserves_met False.
     """
-    m = state.mass_kg
-    if m <= 0:
-        return 0.0, None, False
-    frac = craft.feed_fractions()[engine]
-    spare = state.remaining_kg - craft.residuals()  # may be negative: already short
-    c = reserve_draw_per_kg(craft)
-    alpha = spare - m * frac
-    beta = m * (frac - c)
-    ids = craft.tank_ids
-    with np.errstate(divide="ignore", invalid="ignore"):
-        bound = -alpha / beta
-    lower = beta > 0      # margin falls as the burn grows: an upper limit on dv (lower limit on E)
-    upper = beta < 0      # margin rises as mass drops: a lower limit on dv
-    flat = ~(lower | upper) & ((frac > 0) | (c > 0))  # tanks neither this engine nor a reserve uses don't matter
-    if np.any(flat & (alpha < -EPS_KG)):
-        return 0.0, ids[int(np.argmax(flat & (alpha < -EPS_KG)))], False
-    e_min = float(np.max(bound[lower])) if lower.any() else 0.0
-    e_max = float(np.min(bound[upper])) if upper.any() else 1.0
-    e_max = min(e_max, 1.0)
-    limiting = ids[int(np.flatnonzero(lower)[np.argmax(bound[lower])])] if lower.any() else None
-    if e_min > e_max + 1e-12 or e_min > 1.0 + 1e-12:
-        tank = limiting if e_min > 1.0 else ids[int(np.flatnonzero(upper)[np.argmin(bound[upper])])]
-        return 0.0, tank, False
-    e_min = max(e_min, 1e-300)
-    ve = craft.ve()[engine]
-    return float(max(0.0, -ve * np.log(min(e_min, 1.0)))), limiting, True
+    dv, k, met = dv_free_many(craft, np.array([state.mass_kg]), state.remaining_kg[None, :], engine)
+    return float(dv[0]), _tank(craft, k[0]), bool(met[0])
 
 
 def capability(craft: Craft, state: State) -> list[EngineCapability]:
@@ -117,19 +167,8 @@ def capability(craft: Craft, state: State) -> list[EngineCapability]:
 
 def fly(craft: Craft, state: State, burns: Sequence[tuple[str, float]]) -> tuple[State, list[np.ndarray]]:
     """Fly impulsive burns (engine id, dv) in order; returns the state after and each burn's draw per tank."""
-    frac = craft.feed_fractions()
-    ve = craft.ve()
-    m = state.mass_kg
-    remaining = state.remaining_kg.astype(float).copy()
-    draws = []
-    for engine_id, dv in burns:
-        e = craft.engine_index(engine_id)
-        p = m * (1.0 - np.exp(-dv / ve[e]))
-        draw = p * frac[e]
-        remaining -= draw
-        m -= p
-        draws.append(draw)
-    return State(m, remaining), draws
+    m, remaining, draws = fly_many(craft, state.mass_kg, state.remaining_kg, burns)
+    return State(float(m), remaining), draws
 
 
 @dataclass(frozen=True)

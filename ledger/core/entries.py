@@ -1,12 +1,12 @@
 """Ledger entries and how corrections, withdrawals and plan links resolve into the events replayed.
 
 Entries are never edited: a correction is a new entry naming the one it supersedes, a withdrawal names a
-plan. ``resolve`` turns the append-only list into what actually counts, so every consumer (replay,
-check, log, reports) sees the same answer.
+plan, an approval or rejection names a plan too. ``resolve`` turns the append-only list into what actually
+counts, so every consumer (replay, check, log, reports) sees the same answer.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, Iterable, Mapping, NamedTuple
 
 import numpy as np
@@ -16,7 +16,9 @@ HANDOVER = "handover"
 """A shift handover: who handed over to whom and the window covered (data: from, to, window_start,
 window_end in POSIX seconds). It changes no state; it marks where the next "since last" window starts."""
 GAUGE, REBASELINE = "gauge", "rebaseline"
-KINDS = (BURN, PLAN, MASS, USE, WITHDRAW, CORRECT, HANDOVER, GAUGE, REBASELINE)
+APPROVE, REJECT = "approve", "reject"
+KINDS = (BURN, PLAN, MASS, USE, WITHDRAW, CORRECT, HANDOVER, GAUGE, REBASELINE, APPROVE, REJECT)
+DECISIONS = (APPROVE, REJECT)
 PROPULSIVE = (BURN, USE)
 EVENT_KINDS = frozenset((BURN, USE, MASS, REBASELINE))
 """Entries the replay steps through. A gauge reading is a record, not an event (it changes nothing by
@@ -63,6 +65,8 @@ class Resolved:
     executed_by: Mapping[int, int]
     """plan seq -> seq of the burn that executed it."""
     withdrawn: frozenset[int]
+    decisions: Mapping[int, Entry] = field(default_factory=dict)
+    """plan seq -> the latest approve or reject entry naming it (a later decision replaces an earlier one)."""
 
 
 def _root(seq: int, by_seq: Mapping[int, Entry]) -> int:
@@ -77,7 +81,10 @@ def _root(seq: int, by_seq: Mapping[int, Entry]) -> int:
 
 
 def apply_correction(entry: Entry, changes: Mapping[str, Any]) -> Entry:
-    """An entry with corrected fields; a new amount replaces the old one (dv, duration or propellant)."""
+    """An entry with corrected fields; a new amount replaces the old one (dv, duration or propellant).
+
+    A sigma belongs to the amount it was given with: it is dropped when the amount changes to another
+    field (unless the correction gives a new sigma), kept when the same field is re-stated."""
     data = dict(entry.data)
     at = entry.at
     note = entry.note
@@ -88,6 +95,8 @@ def apply_correction(entry: Entry, changes: Mapping[str, Any]) -> Entry:
             note = str(value)
         else:
             if key in AMOUNT_FIELDS:
+                if data.get(key) is None and "sigma" not in changes:
+                    data.pop("sigma", None)
                 for other in AMOUNT_FIELDS:
                     data.pop(other, None)
             data[key] = value
@@ -119,6 +128,7 @@ def resolve(entries: Iterable[Entry]) -> Resolved:
     executed_by: dict[int, int] = {}
     withdrawn: set[int] = set()
     events, plans = [], []
+    decisions: dict[int, Entry] = {}
     for seq, e in effective.items():  # insertion order is seq order
         kind = e.kind
         if kind in EVENT_KINDS:
@@ -129,6 +139,8 @@ def resolve(entries: Iterable[Entry]) -> Resolved:
             plans.append(e)
         elif kind == WITHDRAW:
             withdrawn.add(int(e.data["plan"]))
+        elif kind in DECISIONS:
+            decisions[int(e.data["plan"])] = e  # effective is in seq order: the latest decision stays
     pending = [p for p in plans if p.seq not in executed_by and p.seq not in withdrawn]
     return Resolved(_by_time(events), _by_time(pending), frozenset(superseded), effective, executed_by,
-                    frozenset(withdrawn))
+                    frozenset(withdrawn), decisions)

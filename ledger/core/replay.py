@@ -98,21 +98,31 @@ def _affine(steps: Steps, ve: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return a, b
 
 
-def mass_scan(m0: float, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Masses after each affine step, by prefix scan: m_k = A_k (m0 + sum_j b_j / A_j)."""
-    if len(a) == 0:
-        return np.empty(0)
-    log_a = np.cumsum(np.log(a))
+def mass_scan(m0, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Masses after each affine step, by prefix scan: m_k = A_k (m0 + sum_j b_j / A_j).
+
+    Works along the last axis, so a (samples, steps) batch with one m0 per sample scans in one call."""
+    with np.errstate(divide="ignore"):
+        return scan_log(m0, np.log(a), b)
+
+
+def scan_log(m0, log_a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """``mass_scan`` given log(a) directly (the Monte Carlo has -dv/ve already and skips an exp/log pair)."""
+    log_a, b = np.asarray(log_a, dtype=float), np.asarray(b, dtype=float)
+    if log_a.shape[-1] == 0:
+        return np.empty(log_a.shape)
+    m0 = np.asarray(m0, dtype=float)[..., None]
+    cum = np.cumsum(log_a, axis=-1)
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        inv = np.exp(-log_a)
-        m = np.exp(log_a) * (m0 + np.cumsum(b * inv))
+        m = np.exp(cum) * (m0 + np.cumsum(b * np.exp(-cum), axis=-1))
     if not np.all(np.isfinite(m)):
         # Extreme histories (mass ratios beyond float range) fall back to the sequential form.
-        m = np.empty(len(a))
-        cur = m0
-        for i in range(len(a)):
-            cur = a[i] * cur + b[i]
-            m[i] = cur
+        a = np.exp(log_a)
+        m = np.empty(np.broadcast_shapes(log_a.shape, b.shape))
+        cur = m0[..., 0]
+        for i in range(log_a.shape[-1]):
+            cur = a[..., i] * cur + b[..., i]
+            m[..., i] = cur
     return m
 
 
@@ -194,4 +204,4 @@ def replay_loop(craft: Craft, events: Sequence[Entry]) -> tuple[float, np.ndarra
     return m, remaining
 
 
-__all__ = ["Replay", "Steps", "replay", "replay_loop", "steps_from_events", "mass_scan", "USE"]
+__all__ = ["Replay", "Steps", "replay", "replay_loop", "steps_from_events", "mass_scan", "scan_log", "USE"]

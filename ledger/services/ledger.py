@@ -18,12 +18,12 @@ from ..store.ledgerfile import LedgerFile, ordered
 from .records import clean_text, entry_from_record, make_record, validate_data
 from .timefmt import iso, now
 
-CORRECTABLE = ("at", "note", "engine", "dv", "duration", "propellant", "delta")
+CORRECTABLE = ("at", "note", "engine", "dv", "duration", "propellant", "delta", "sigma")
 FIELDS_BY_KIND = {
-    BURN: ("at", "note", "engine", "dv", "duration", "propellant"),
+    BURN: ("at", "note", "engine", "dv", "duration", "propellant", "sigma"),
     PLAN: ("at", "note", "engine", "dv"),
-    USE: ("at", "note", "engine", "duration", "propellant"),
-    MASS: ("at", "note", "delta"),
+    USE: ("at", "note", "engine", "duration", "propellant", "sigma"),
+    MASS: ("at", "note", "delta", "sigma"),
     WITHDRAW: ("at", "note"),
 }
 """What a correction may change, by the kind of entry it corrects."""
@@ -43,6 +43,8 @@ class Snapshot:
     engines: tuple[cap.EngineCapability, ...]
     integrity: Break | None
     warnings: tuple[str, ...] = field(default_factory=tuple)
+    head: tuple[int, str] = (0, "")
+    """(seq, hash) of the chain's last link in the records this snapshot was built from."""
 
     @property
     def usable_kg(self) -> np.ndarray:
@@ -89,7 +91,9 @@ def snapshot_from(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[
     state = cap.State(rep.mass_kg, rep.remaining_kg)
     engines = tuple(cap.capability(craft, state))
     warnings = _warnings(craft, resolved.events, rep, state, engines, integrity)
-    return Snapshot(path, craft, meta, entries, resolved, rep, state, engines, integrity, tuple(warnings))
+    last = records[-1] if records else meta
+    head = (int(last.get("seq", len(records))), str(last.get("hash", "")))
+    return Snapshot(path, craft, meta, entries, resolved, rep, state, engines, integrity, tuple(warnings), head)
 
 
 class Ledger:

@@ -7,8 +7,8 @@ from datetime import datetime
 from typing import Any, Mapping
 
 from ..core.craft import Craft
-from ..core.entries import (AMOUNT_FIELDS, BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, USE, WITHDRAW,
-                            Entry, Resolved)
+from ..core.entries import (AMOUNT_FIELDS, APPROVE, BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, REJECT,
+                            USE, WITHDRAW, Entry, Resolved)
 from ..errors import InputError
 from .timefmt import iso, parse_time
 
@@ -66,6 +66,11 @@ def _one_amount(data: Mapping[str, Any], allowed: tuple[str, ...], what: str) ->
     return {key: value}
 
 
+def plan_ref(resolved: Resolved, ref: Any, what: str) -> int:
+    """The seq of a pending plan named by ``ref`` ('12' or '#12'); InputError otherwise."""
+    return _plan_ref(resolved, ref, what)
+
+
 def _plan_ref(resolved: Resolved, ref: Any, what: str) -> int:
     try:
         seq = int(str(ref).lstrip("#"))
@@ -81,6 +86,35 @@ def _plan_ref(resolved: Resolved, ref: Any, what: str) -> int:
     return seq
 
 
+def _sigma(out: dict[str, Any], data: Mapping[str, Any]) -> dict[str, Any]:
+    """One sigma of the entry's amount, same unit as the amount (optional; core.sigmas has the defaults)."""
+    if data.get("sigma") is not None:
+        sigma = _finite(data["sigma"], "--sigma")
+        if sigma < 0:
+            raise InputError("--sigma: must not be negative (one standard deviation of the amount)")
+        out["sigma"] = sigma
+    return out
+
+
+VERDICTS = ("feasible", "marginal", "infeasible")
+
+
+def _decision(resolved: Resolved, kind: str, data: Mapping[str, Any]) -> dict[str, Any]:
+    """An approval or rejection: the plan, the check it was based on and the chain head it saw."""
+    what = "an approval" if kind == APPROVE else "a rejection"
+    out: dict[str, Any] = {"plan": _plan_ref(resolved, data.get("plan"), what)}
+    check = data.get("check")
+    if not isinstance(check, Mapping) or check.get("verdict") not in VERDICTS:
+        raise InputError(f"{kind}: the check the decision is based on is missing or has no verdict")
+    for key in ("probability", "confidence", "dv_free_after_m_s"):
+        _finite(check.get(key), f"{kind}: check.{key}")
+    head = data.get("head")
+    if not isinstance(head, Mapping) or not isinstance(head.get("hash"), str) or not isinstance(head.get("seq"), int):
+        raise InputError(f"{kind}: the ledger head (seq, hash) the check saw is missing")
+    out.update(check=dict(check), head={"seq": int(head["seq"]), "hash": str(head["hash"])})
+    return out
+
+
 def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str, Any]) -> dict[str, Any]:
     """The SI payload of a new entry, checked against the craft and the ledger; raises InputError."""
     if kind == BURN:
@@ -88,7 +122,7 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
         out.update(_one_amount(data, AMOUNT_FIELDS, "burn"))
         if data.get("plan") is not None:
             out["plan"] = _plan_ref(resolved, data["plan"], "an executed burn")
-        return out
+        return _sigma(out, data)
     if kind == PLAN:
         out = {"engine": _engine(craft, data.get("engine"))}
         out.update(_one_amount(data, ("dv",), "plan"))
@@ -96,14 +130,14 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
     if kind == USE:
         out = {"engine": _engine(craft, data.get("engine"))}
         out.update(_one_amount(data, ("duration", "propellant"), "use"))
-        return out
+        return _sigma(out, data)
     if kind == MASS:
         if data.get("delta") is None:
             raise InputError("mass: --delta is required (signed, e.g. '-35 kg' for a separation)")
         delta = _finite(data["delta"], "--delta")
         if delta == 0:
             raise InputError("--delta: a mass change of zero records nothing")
-        return {"delta": delta}
+        return _sigma({"delta": delta}, data)
     if kind == WITHDRAW:
         return {"plan": _plan_ref(resolved, data.get("plan"), "a withdrawal")}
     if kind == HANDOVER:
@@ -112,6 +146,8 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
         return _gauge(craft, data)
     if kind == REBASELINE:
         return _rebaseline(craft, resolved, data)
+    if kind in (APPROVE, REJECT):
+        return _decision(resolved, kind, data)
     raise InputError(f"unknown entry kind '{kind}'")
 
 

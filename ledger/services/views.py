@@ -4,7 +4,7 @@ from __future__ import annotations
 from typing import Any
 
 from ..core import capability as cap
-from ..core.entries import BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, USE, WITHDRAW
+from ..core.entries import APPROVE, BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, REJECT, USE, WITHDRAW
 from .forecast import forecast
 from .ledger import Snapshot
 from .timefmt import iso
@@ -92,7 +92,7 @@ def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
 
 
 KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "WDRAW", CORRECT: "CORR",
-              HANDOVER: "HANDOVER", GAUGE: "GAUGE", REBASELINE: "REBASE"}
+              HANDOVER: "HANDOVER", GAUGE: "GAUGE", REBASELINE: "REBASE", APPROVE: "APPR", REJECT: "REJ"}
 
 
 def _amount(data) -> str:

@@ -1,0 +1,49 @@
+"""The Monte Carlo's reference: the same model as ``core.montecarlo``, one sample and one entry at a time.
+
+Slow and obvious on purpose: the tests check the fast sampler's distribution against it, the benchmark
+measures the speed-up against it.
+"""
+from __future__ import annotations
+
+import math
+from typing import Sequence
+
+import numpy as np
+
+from .craft import G0, Craft
+from .entries import BURN, MASS, Entry
+from .montecarlo import DEFAULT_SEED, Samples, _globals, generator
+from .sigmas import entry_sigma
+
+
+def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int = DEFAULT_SEED) -> Samples:
+    """Reference: the same model, one sample and one entry at a time in plain Python (slow, obvious)."""
+    rng = generator(seed)
+    dry, loads, isp, thrust = _globals(craft, rng, samples)
+    frac = craft.feed_fractions()
+    index = {e.id: i for i, e in enumerate(craft.engines)}
+    cos = np.cos(np.radians([e.cant_deg for e in craft.engines]))
+    nominal_flow = craft.mass_flows()
+    mass = np.empty(samples)
+    remaining = np.empty((samples, len(craft.tanks)))
+    ve_all = isp * G0 * cos
+    for s in range(samples):
+        m, rem = dry[s] + loads[s].sum(), loads[s].copy()
+        for ev in events:
+            d = ev.data
+            if ev.kind == MASS:
+                m += d["delta"] + entry_sigma(d, "delta") * rng.standard_normal()
+                continue
+            e = index[d["engine"]]
+            if ev.kind == BURN and d.get("dv") is not None:
+                dv = d["dv"] + entry_sigma(d, "dv") * rng.standard_normal()
+                p = -m * math.expm1(-dv / ve_all[s, e])
+            elif d.get("duration") is not None:
+                flow = thrust[s, e] / (isp[s, e] * G0)
+                p = flow * d["duration"] + nominal_flow[e] * entry_sigma(d, "duration") * rng.standard_normal()
+            else:
+                p = d["propellant"] + entry_sigma(d, "propellant") * rng.standard_normal()
+            m -= p
+            rem -= p * frac[e]
+        mass[s], remaining[s] = m, rem
+    return Samples(mass, remaining, ve_all, seed, len(events))

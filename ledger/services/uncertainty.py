@@ -1,0 +1,188 @@
+"""Uncertainty for the shells: low bounds at a confidence, checks with a probability, approval states.
+
+One Monte Carlo run (``core.montecarlo``) gives every sample's final state; status figures, the check of
+a proposed burn and the re-check of every approved plan are then cheap passes over those samples. All
+functions return plain dicts (JSON-ready), so the command line and the console show the same figures.
+"""
+from __future__ import annotations
+
+import math
+import os
+from typing import Any, Sequence
+
+from ..core import capability as cap
+from ..core import montecarlo as mc
+from ..core import sampled
+from ..core.entries import APPROVE, DECISIONS
+from ..errors import InputError
+from .ledger import Snapshot
+from .timefmt import iso
+from .views import CAUTION, status
+
+DEFAULT_CONFIDENCE = 0.99
+DEFAULT_SAMPLES = mc.DEFAULT_SAMPLES
+DEFAULT_SEED = mc.DEFAULT_SEED
+WORKERS = min(2, os.cpu_count() or 1)
+"""Threads the Monte Carlo's chunks are shared between (the answer does not depend on it)."""
+STALE_DV_ABS_M_S = 0.1
+STALE_DV_REL = 0.01
+"""An approval goes stale when the re-computed check has another verdict, or its dv free after the burn
+moved by more than max(0.1 m/s, 1 % of the approved figure). 1 % is the default one-sigma Isp knowledge
+(core.sigmas): a smaller move is inside what the figure could be known to anyway. Project choice."""
+
+
+def validate(confidence: float, samples: int) -> None:
+    if not (isinstance(confidence, float) and 0.0 < confidence < 1.0):
+        raise InputError(f"--confidence: expected a probability strictly between 0 and 1 such as 0.99, got {confidence!r}")
+    if samples < 1:
+        raise InputError(f"--samples: expected a positive number of samples, got {samples}")
+    if (1.0 - confidence) * samples < 1.0:
+        need = math.ceil(1.0 / (1.0 - confidence))
+        raise InputError(f"--confidence {confidence:g} needs at least {need} samples for a low bound (--samples)")
+
+
+def run(snap: Snapshot, samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED,
+        progress: mc.Progress | None = None) -> mc.Samples:
+    return mc.simulate(snap.craft, snap.resolved.events, samples=samples, seed=seed, progress=progress,
+                       workers=WORKERS)
+
+
+def commitments(snap: Snapshot, approved_only: bool = False, exclude: int | None = None) -> list[tuple[str, float]]:
+    """Pending plans counted before a burn: all of them, or only those whose latest decision approves."""
+    out = []
+    for p in snap.resolved.pending:
+        if p.seq == exclude:
+            continue
+        decision = snap.resolved.decisions.get(p.seq)
+        if approved_only and (decision is None or decision.kind != APPROVE):
+            continue
+        out.append((str(p.get("engine")), float(p.get("dv"))))
+    return out
+
+
+def check_from(snap: Snapshot, s: mc.Samples, engine: str, dv: float, confidence: float,
+               plans: Sequence[tuple[str, float]]) -> dict[str, Any]:
+    """The nominal check plus its probability over the samples and the three-way verdict."""
+    res = cap.check(snap.craft, snap.state, engine, dv, plans)
+    sc = sampled.check_samples(snap.craft, s, engine, dv, plans)
+    p = sc.probability
+    verdict = "infeasible" if not res.feasible else "feasible" if p >= confidence else "marginal"
+    return {
+        "engine": res.engine, "dv_m_s": res.dv_m_s, "verdict": verdict,
+        "probability": p, "probability_se": sc.standard_error, "confidence": confidence,
+        "propellant_kg": res.propellant_kg, "propellant_by_tank_kg": res.propellant_by_tank,
+        "dv_free_after_m_s": res.dv_free_after_m_s,
+        "dv_free_after_low_m_s": sampled.low_bound(sc.dv_free_after, confidence),
+        "limiting_tank": res.limiting_tank, "margin_after_reserves_kg": res.margin_by_tank,
+        "commitments": [{"engine": e, "dv_m_s": d} for e, d in res.commitments],
+        "samples": len(s), "seed": s.seed, "reason": res.reason, "caution": CAUTION,
+    }
+
+
+def confidence_check(snap: Snapshot, engine: str, dv: float, confidence: float = DEFAULT_CONFIDENCE,
+                     approved_only: bool = False, samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED,
+                     progress: mc.Progress | None = None) -> dict[str, Any]:
+    """``propledger check`` with a confidence: feasible, marginal (nominal only) or infeasible."""
+    validate(confidence, samples)
+    if engine not in snap.craft.engine_ids:
+        raise InputError(f"--engine: unknown engine '{engine}' (engines: {', '.join(snap.craft.engine_ids)})")
+    s = run(snap, samples, seed, progress)
+    out = check_from(snap, s, engine, dv, confidence, commitments(snap, approved_only))
+    out["approved_only"] = approved_only
+    return out
+
+
+def plan_check(snap: Snapshot, s: mc.Samples, plan: int, confidence: float) -> dict[str, Any]:
+    """The check a decision on a pending plan rests on: the plan's burn on top of every other pending plan
+    (what ``check`` would say of the same burn were the plan not yet recorded)."""
+    entry = snap.resolved.effective[plan]
+    return check_from(snap, s, str(entry.get("engine")), float(entry.get("dv")), confidence,
+                      commitments(snap, exclude=plan))
+
+
+def _changed_since(snap: Snapshot, head_seq: int) -> bool:
+    """Whether anything but decisions was appended after the head the decision's check saw."""
+    return any(e.seq > head_seq and e.kind not in DECISIONS for e in snap.entries)
+
+
+def approvals(snap: Snapshot, s: mc.Samples) -> dict[int, dict[str, Any]]:
+    """Per pending plan: approval approved | rejected | stale | none, with the evidence for the answer."""
+    out: dict[int, dict[str, Any]] = {}
+    for p in snap.resolved.pending:
+        d = snap.resolved.decisions.get(p.seq)
+        if d is None:
+            out[p.seq] = {"approval": "none"}
+            continue
+        then = dict(d.get("check") or {})
+        row: dict[str, Any] = {"approval": "approved" if d.kind == APPROVE else "rejected", "entry": d.seq,
+                               "by": d.by, "at": iso(d.at), "note": d.note, "check_then": then}
+        if d.kind == APPROVE and _changed_since(snap, int((d.get("head") or {}).get("seq", d.seq - 1))):
+            now = plan_check(snap, s, p.seq, float(then.get("confidence", DEFAULT_CONFIDENCE)))
+            row["check_now"] = {k: now[k] for k in ("verdict", "probability", "confidence", "dv_free_after_m_s")}
+            moved = abs(now["dv_free_after_m_s"] - float(then.get("dv_free_after_m_s", 0.0)))
+            tolerance = max(STALE_DV_ABS_M_S, STALE_DV_REL * abs(float(then.get("dv_free_after_m_s", 0.0))))
+            if now["verdict"] != then.get("verdict"):
+                row.update(approval="stale", reason=f"verdict now {now['verdict']}, was {then.get('verdict')}")
+            elif moved > tolerance:
+                row.update(approval="stale", reason=f"dv free after moved {moved:.3f} m/s (tolerance {tolerance:.3f})")
+        out[p.seq] = row
+    return out
+
+
+def confidence_status(snapshot: Snapshot, confidence: float = DEFAULT_CONFIDENCE, samples: int = DEFAULT_SAMPLES,
+                      seed: int = DEFAULT_SEED, progress: mc.Progress | None = None) -> dict[str, Any]:
+    """Nominal figures with their low bounds at ``confidence``, reserve probability and approval states.
+
+    Pure computation on a snapshot (no I/O), safe to run in a worker thread; ``progress(done, total)``
+    is called after each chunk of samples."""
+    validate(confidence, samples)
+    craft = snapshot.craft
+    s = run(snapshot, samples, seed, progress)
+    usable, avail, free = sampled.capability_samples(craft, s)
+    nominal = {e.engine: e for e in snapshot.engines}
+
+    def stats(x) -> dict[str, float]:
+        return {"mean": float(x.mean()), "sd": float(x.std(ddof=1)) if len(x) > 1 else 0.0,
+                "low": sampled.low_bound(x, confidence)}
+
+    return {
+        "confidence": confidence, "samples": len(s), "seed": s.seed, "segments": s.segments,
+        "mass_kg": dict(stats(s.mass_kg), nominal=snapshot.state.mass_kg),
+        "tanks": {t.id: {"usable_kg": float(snapshot.usable_kg[i]), "usable_low_kg": sampled.low_bound(usable[:, i], confidence),
+                         "usable": stats(usable[:, i]), "remaining": stats(s.remaining_kg[:, i])}
+                  for i, t in enumerate(craft.tanks)},
+        "engines": {e.id: {"dv_free_m_s": nominal[e.id].dv_free_m_s, "dv_free_low_m_s": sampled.low_bound(free[:, i], confidence),
+                           "dv_available_m_s": nominal[e.id].dv_available_m_s,
+                           "dv_available_low_m_s": sampled.low_bound(avail[:, i], confidence),
+                           "dv_free": stats(free[:, i]), "dv_available": stats(avail[:, i])}
+                    for i, e in enumerate(craft.engines)},
+        "reserves_probability": float(sampled.reserves_intact(craft, s).mean()),
+        "approvals": {str(k): v for k, v in approvals(snapshot, s).items()},
+        "caution": CAUTION,
+    }
+
+
+def status_with_confidence(snap: Snapshot, confidence: float = DEFAULT_CONFIDENCE, samples: int = DEFAULT_SAMPLES,
+                           seed: int = DEFAULT_SEED, progress: mc.Progress | None = None) -> dict[str, Any]:
+    """``views.status`` plus confidence, per tank usable_low_kg, per engine dv_free_low_m_s, plan approvals."""
+    data = status(snap)
+    u = confidence_status(snap, confidence, samples, seed, progress)
+    data["confidence"] = confidence
+    for tid, t in data["tanks"].items():
+        t["usable_low_kg"] = u["tanks"][tid]["usable_low_kg"]
+    for eid, e in data["engines"].items():
+        e["dv_free_low_m_s"] = u["engines"][eid]["dv_free_low_m_s"]
+        e["dv_available_low_m_s"] = u["engines"][eid]["dv_available_low_m_s"]
+    for row in data["pending_plans"]:
+        a = u["approvals"][str(row["id"])]
+        row["approval"] = a["approval"]
+        if a["approval"] != "none":
+            row["approval_detail"] = {k: v for k, v in a.items() if k != "approval"}
+    data["uncertainty"] = {"samples": u["samples"], "seed": u["seed"], "segments": u["segments"],
+                           "reserves_probability": u["reserves_probability"], "mass_low_kg": u["mass_kg"]["low"],
+                           "mass_sd_kg": u["mass_kg"]["sd"]}
+    return data
+
+
+__all__ = ["confidence_status", "confidence_check", "status_with_confidence", "plan_check", "approvals",
+           "commitments", "validate", "run"]

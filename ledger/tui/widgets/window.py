@@ -1,0 +1,130 @@
+"""The ledger window: a page of entries around the user's place, never the whole ledger.
+
+DataTable measures every cell it is given, so it only ever holds one page (as many rows as fit). The
+window remembers where the user is: following the newest entries, or anchored on an entry, and the
+entry under the cursor; a reload keeps both.
+"""
+from __future__ import annotations
+
+from typing import Any, Sequence
+
+from rich.text import Text
+from textual.message import Message
+from textual.widgets import DataTable
+
+from .. import fmt
+
+
+class LedgerTable(DataTable):
+    """DataTable whose up/down/page keys past the page edge ask the window for the next page."""
+
+    class Edge(Message):
+        def __init__(self, step: int) -> None:
+            super().__init__()
+            self.step = step  # rows to move the window by; +/-10**9 for the ends
+
+    def on_resize(self) -> None:
+        self.post_message(self.Edge(0))
+
+    def action_cursor_up(self) -> None:
+        if self.cursor_row <= 0:
+            self.post_message(self.Edge(-1))
+        else:
+            super().action_cursor_up()
+
+    def action_cursor_down(self) -> None:
+        if self.cursor_row >= self.row_count - 1:
+            self.post_message(self.Edge(1))
+        else:
+            super().action_cursor_down()
+
+    def action_page_up(self) -> None:
+        self.post_message(self.Edge(-max(1, self.row_count)))
+
+    def action_page_down(self) -> None:
+        self.post_message(self.Edge(max(1, self.row_count)))
+
+    def action_scroll_top(self) -> None:
+        self.post_message(self.Edge(-10**9))
+
+    def action_scroll_bottom(self) -> None:
+        self.post_message(self.Edge(10**9))
+
+    action_scroll_home = action_scroll_top
+    action_scroll_end = action_scroll_bottom
+
+
+class Window:
+    """Which slice of the selected entries is on screen: ``end`` (exclusive) and ``size``."""
+
+    def __init__(self) -> None:
+        self.sel: Sequence[int] = ()
+        self.end = 0
+        self.size = 20
+        self.follow = True          # stick to the newest entry
+        self.anchor: int | None = None  # seq of the last row shown when not following
+        self.cursor_seq: int | None = None
+
+    def reselect(self, sel: Sequence[int], pos: dict[int, int] | None = None) -> None:
+        """New selection (reload or filter): keep following, or keep the anchor row last on screen."""
+        self.sel = sel
+        if self.follow or self.anchor is None:
+            self.end = len(sel)
+            return
+        where = pos if pos is not None else {s: i for i, s in enumerate(sel)}
+        self.end = where[self.anchor] + 1 if self.anchor in where else len(sel)
+        self.follow = self.end >= len(sel)
+
+    def move(self, step: int) -> None:
+        n = len(self.sel)
+        self.end = max(min(self.size, n), min(n, self.end + step))
+        self.follow = self.end >= n
+        self.anchor = self.sel[self.end - 1] if n else None
+
+    @property
+    def start(self) -> int:
+        return max(0, self.end - self.size)
+
+    def seqs(self) -> Sequence[int]:
+        return self.sel[self.start:self.end]
+
+
+def columns(tank_ids: Sequence[str]) -> list[tuple[str, str]]:
+    cols = [("#", "id"), ("kind", "kind"), ("at (UTC)", "at"), ("engine", "engine"), ("amount", "amount"),
+            ("mass after kg", "mass")]
+    cols += [(f"{t} kg", f"tank:{t}") for t in tank_ids]
+    cols += [("status", "status"), ("by", "by"), ("note", "note")]
+    return cols
+
+
+def cells(row: dict[str, Any], tank_ids: Sequence[str]) -> list[Any]:
+    """Table cells for one ``views.log`` row."""
+    status = ""
+    if row["kind"] == "plan":
+        status = row.get("state", "")
+    elif row["kind"] == "correct":
+        status = f"fixes #{row.get('corrects')}"
+    elif row["kind"] == "withdraw":
+        status = ""
+    if row.get("superseded"):
+        status = "superseded" if not status else status + " (superseded)"
+    if row.get("late"):
+        status = (status + " late").strip()
+    if row.get("plan") is not None:
+        status = (status + f" plan #{row['plan']}").strip()
+    drawn = row.get("drawn_kg") or {}
+    mass = row.get("mass_after_kg")
+    out: list[Any] = [
+        Text(str(row["id"]), justify="right"),
+        fmt.kind_text(row["kind"], row.get("superseded", False)),
+        fmt.when(row.get("at")),
+        row.get("engine") or "",
+        Text(row.get("amount") or "", justify="right"),
+        Text(fmt.kg(mass, 2) if mass is not None else "", justify="right"),
+    ]
+    for t in tank_ids:
+        x = drawn.get(t)
+        out.append(Text(f"{-x:,.3f}" if x else "", justify="right"))
+    note = row.get("reason") if row["kind"] == "correct" else row.get("note")
+    out += [status, row.get("by") or "", (note or "").replace("\n", " ")[:60]]
+    return out

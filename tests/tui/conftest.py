@@ -1,38 +1,14 @@
-"""Fixtures for the console tests: a small ledger with every kind of entry, built through the services."""
+"""Fixtures for the console tests."""
 from __future__ import annotations
 
-import asyncio
 import os
+import sys
 
 import pytest
 
-from ledger.services import craftfile
-from ledger.services.ledger import Ledger, create
-from ledger.services.timefmt import parse_time
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
-HERE = os.path.dirname(os.path.abspath(__file__))
-CRAFT = os.path.join(HERE, "craft.yaml")
-
-
-def fill(path: str) -> Ledger:
-    """A ledger with burns, plans (one executed, one withdrawn, two pending), uses, a mass change and a
-    correction, in the order an operations team might log them."""
-    create(path, craftfile.load_craft(CRAFT), by="tester")
-    led = Ledger(path)
-    t = parse_time("2026-01-10T00:00Z")
-    day = 86400.0
-    led.record("plan", {"engine": "lae", "dv": 310.0}, at=t, by="fd", note="apogee 1")
-    led.record("burn", {"engine": "lae", "dv": 309.2, "plan": 1}, at=t + 60, by="ops", note="apogee 1 done")
-    led.record("mass", {"delta": -12.0}, at=t + 2 * day, by="ops", note="cover released")
-    for k in range(6):
-        led.record("use", {"engine": "rcs", "duration": 40.0 + k}, at=t + (3 + k) * day, by="ops")
-    led.record("burn", {"engine": "rcs", "propellant": 0.8}, at=t + 10 * day, by="ops", note="trim")
-    led.record("plan", {"engine": "lae", "dv": 5.0}, at=t + 20 * day, by="fd", note="drift stop")
-    led.record("withdraw", {"plan": 11}, at=t + 11 * day, by="fd", note="not needed")
-    led.record("plan", {"engine": "lae", "dv": 8.0}, at=t + 30 * day, by="fd", note="inclination trim")
-    led.record("plan", {"engine": "rcs", "dv": 1.2}, at=t + 31 * day, by="fd", note="phasing")
-    led.correct(5, {"duration": 44.0}, reason="telemetry recount", by="ops")
-    return led
+from tui_support import fill  # noqa: E402
 
 
 @pytest.fixture
@@ -40,8 +16,3 @@ def ledger_path(tmp_path) -> str:
     path = str(tmp_path / "test.ledger.json")
     fill(path)
     return path
-
-
-def run(coro):
-    """Run an async Pilot test from a plain (sync) pytest test."""
-    return asyncio.run(coro)

@@ -39,6 +39,7 @@ class FormDialog(ModalScreen):
 
     TITLE = "Entry"
     HINT = ""
+    FOCUS = ""  # field to start in (default: the first)
     BINDINGS = [Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "submit", "Record")]
 
     def __init__(self) -> None:
@@ -69,9 +70,9 @@ class FormDialog(ModalScreen):
                     with Horizontal(classes="field-row"):
                         yield Label(f.label + (" *" if f.required else ""), classes="field-label")
                         if f.options is not None:
-                            yield Select(f.options, id=f"f-{f.name}", allow_blank=not f.required,
+                            yield Select(f.options, id=f"f-{f.name}", allow_blank=not (f.required and f.value is not None),
                                          value=f.value if f.value is not None else Select.NULL,
-                                         prompt="(none)", compact=True)
+                                         prompt="(pick one)" if f.required else "(none)", compact=True)
                         else:
                             yield Input(value=f.value or "", placeholder=f.placeholder, id=f"f-{f.name}",
                                         compact=True)
@@ -82,8 +83,8 @@ class FormDialog(ModalScreen):
                 yield Button("Cancel  esc", id="cancel", compact=True)
 
     def on_mount(self) -> None:
-        first = self.query("#form-fields Input, #form-fields Select").first()
-        first.focus()
+        start = self.query(f"#f-{self.FOCUS}") if self.FOCUS else None
+        (start.first() if start else self.query("#form-fields Input, #form-fields Select").first()).focus()
 
     # --- values and messages -------------------------------------------------------------------
     def raw(self, name: str) -> Any:

@@ -25,7 +25,7 @@ def detail_text(d: dict[str, Any]) -> Text:
         out.append(f"{value}\n", style=style)
 
     out.append_text(fmt.kind_text(d["kind"], d.get("superseded", False)))
-    out.append(f"  entry #{d['id']}\n\n", style="bold")
+    out.append("\n\n")
     line("happened at", d.get("at"))
     line("logged at", d.get("recorded"))
     line("logged by", d.get("by"))

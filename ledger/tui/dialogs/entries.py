@@ -43,6 +43,7 @@ class BurnForm(EntryForm):
     KIND = BURN
     TITLE = "▲ Log an executed burn"
     HINT = "Amount as delta-v ('1.8 m/s'), duration ('95 s', '3 min') or propellant ('2.4 kg')."
+    FOCUS = "amount"
 
     def make_fields(self) -> list[Field]:
         snap = self.snap
@@ -75,6 +76,7 @@ class PlanForm(EntryForm):
     KIND = PLAN
     TITLE = "◇ Log a planned burn"
     HINT = "A plan stays pending until a burn executes it or it is withdrawn; checks fly it first."
+    FOCUS = "amount"
 
     def make_fields(self) -> list[Field]:
         return [
@@ -114,6 +116,7 @@ class UseForm(EntryForm):
     KIND = USE
     TITLE = "• Log other propellant use"
     HINT = "Propellant used without delta-v (attitude control, venting): a duration or a mass."
+    FOCUS = "amount"
 
     def make_fields(self) -> list[Field]:
         return [
@@ -149,6 +152,7 @@ class WithdrawForm(EntryForm):
 class CorrectForm(EntryForm):
     TITLE = "✎ Correct an entry"
     HINT = "The original stays; a correction supersedes it. Leave a field blank to keep it."
+    FOCUS = "reason"
 
     def __init__(self, entry: int | None = None) -> None:
         self.start_entry = entry

@@ -15,13 +15,16 @@ from textual.widgets import DataTable
 from .. import fmt
 
 
+PAGE, END = 10**6, 10**9
+
+
 class LedgerTable(DataTable):
     """DataTable whose up/down/page keys past the page edge ask the window for the next page."""
 
     class Edge(Message):
         def __init__(self, step: int) -> None:
             super().__init__()
-            self.step = step  # rows to move the window by; +/-10**9 for the ends
+            self.step = step  # rows to move the window by; +/-PAGE a page, +/-END to an end
 
     def on_resize(self) -> None:
         self.post_message(self.Edge(0))
@@ -39,16 +42,16 @@ class LedgerTable(DataTable):
             super().action_cursor_down()
 
     def action_page_up(self) -> None:
-        self.post_message(self.Edge(-max(1, self.row_count)))
+        self.post_message(self.Edge(-PAGE))
 
     def action_page_down(self) -> None:
-        self.post_message(self.Edge(max(1, self.row_count)))
+        self.post_message(self.Edge(PAGE))
 
     def action_scroll_top(self) -> None:
-        self.post_message(self.Edge(-10**9))
+        self.post_message(self.Edge(-END))
 
     def action_scroll_bottom(self) -> None:
-        self.post_message(self.Edge(10**9))
+        self.post_message(self.Edge(END))
 
     action_scroll_home = action_scroll_top
     action_scroll_end = action_scroll_bottom
@@ -76,6 +79,8 @@ class Window:
         self.follow = self.end >= len(sel)
 
     def move(self, step: int) -> None:
+        if abs(step) == PAGE:
+            step = self.size if step > 0 else -self.size
         n = len(self.sel)
         self.end = max(min(self.size, n), min(n, self.end + step))
         self.follow = self.end >= n

@@ -8,7 +8,7 @@ from datetime import datetime, timezone
 
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.containers import Vertical
+from textual.containers import Horizontal, Vertical
 from textual.screen import Screen
 from textual.widgets import Static
 from textual_plotext import PlotextPlot
@@ -18,12 +18,23 @@ from ...services.ledger import Snapshot
 from ..widgets.keybar import KeyBar
 from .main import SHORT_CAUTION
 
-DATE_FORM = "Y-m-d"
-MARKERS = ("braille", "dot", "hd", "fhd", "sd")
 
 
-def _dates(t) -> list[str]:
-    return [datetime.fromtimestamp(x, tz=timezone.utc).strftime("%Y-%m-%d") for x in t]
+def _axis(t) -> tuple[list[float], list[float], list[str]]:
+    """x in days since the first sample, with a few ticks labelled by date."""
+    t0 = float(t[0]) if len(t) else 0.0
+    x = [(float(v) - t0) / 86400.0 for v in t]
+    span = x[-1] if x and x[-1] > 0 else 1.0
+    ticks = [span * k / 4 for k in range(4)]  # none at the right end: its label would spill past the plot
+    labels = [datetime.fromtimestamp(t0 + d * 86400.0, tz=timezone.utc).strftime("%Y-%m-%d") for d in ticks]
+    return x, ticks, labels
+
+
+def _frame(plt, title: str, ticks, labels) -> None:
+    plt.clear_data()
+    plt.clear_figure()
+    plt.title(title)
+    plt.xticks(ticks, labels)
 
 
 class TrendScreen(Screen):
@@ -35,7 +46,9 @@ class TrendScreen(Screen):
         yield Static("", id="masthead")
         with Vertical(id="trend-body"):
             yield PlotextPlot(id="plot-prop", classes="panel")
-            yield PlotextPlot(id="plot-dv", classes="panel")
+            with Horizontal(id="plot-dv-row"):
+                for i, e in enumerate(self.app.snap.craft.engines):
+                    yield PlotextPlot(id=f"plot-dv-{i}", classes="panel plot-dv")
         yield KeyBar([("esc", "Back to the ledger", "screen.back"), ("^p", "Commands", "app.command_palette")],
                      id="keys")
         yield Static(SHORT_CAUTION, id="caution")
@@ -47,26 +60,20 @@ class TrendScreen(Screen):
         tr = trend_service.trend(snap)
         self.query_one("#masthead", Static).update(
             f" ◆ propledger  {snap.craft.name} │ trend over {tr.events:,} events, {len(tr.t)} samples │ esc back")
-        dates = _dates(tr.t)
+        x, ticks, labels = _axis(tr.t)
         prop = self.query_one("#plot-prop", PlotextPlot)
         p = prop.plt
-        p.clear_data()
-        p.clear_figure()
-        p.date_form(DATE_FORM)
-        p.title("Propellant remaining, kg")
-        p.plot(dates, list(tr.total_kg), label="total", marker="braille")
+        _frame(p, "Propellant remaining, kg (UTC dates)", ticks, labels)
+        p.plot(x, list(tr.total_kg), label="total", marker="hd")
         for tid, y in tr.tanks.items():
-            p.plot(dates, list(y), label=tid, marker="braille")
+            p.plot(x, list(y), label=tid, marker="hd")
         prop.refresh()
-        dv = self.query_one("#plot-dv", PlotextPlot)
-        d = dv.plt
-        d.clear_data()
-        d.clear_figure()
-        d.date_form(DATE_FORM)
-        d.title("dv free (reserves kept), m/s")
-        for eid, y in tr.dv_free.items():
-            d.plot(dates, list(y), label=eid, marker="braille")
-        dv.refresh()
+        for i, (eid, y) in enumerate(tr.dv_free.items()):  # one chart per engine: scales differ a lot
+            dv = self.query_one(f"#plot-dv-{i}", PlotextPlot)
+            d = dv.plt
+            _frame(d, f"dv free for {eid} (reserves kept), m/s", ticks, labels)
+            d.plot(x, list(y), marker="hd")
+            dv.refresh()
 
     def action_back(self) -> None:
         self.app.pop_screen()

@@ -4,6 +4,7 @@ They only draw what the screen hands them (plain dicts from the services); they 
 """
 from __future__ import annotations
 
+from datetime import datetime, timezone
 from typing import Any, Sequence
 
 from rich.text import Text
@@ -114,9 +115,12 @@ class WatchList(Widget):
         lines.append(Text(f"{sym} chain {text}", style=style))
         if not self.pending:
             lines.append(Text("◇ no pending plans", style="grey62"))
+        now = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M")
         for p in self.pending:
             when = fmt.when(p["at"]) if w >= 50 else fmt.when(p["at"])[5:]
-            lines.append(Text(f"◇ #{p['id']} PLAN {p['engine']} {p['dv_m_s']:,.2f} m/s at {when}", style="yellow"))
+            late = " overdue" if p["at"][:16] < now else ""
+            lines.append(Text(f"◇ #{p['id']} PLAN {p['engine']} {p['dv_m_s']:,.2f} m/s at {when}{late}",
+                              style="yellow"))
         if not self.warnings:
             lines.append(Text("✓ no warnings", style="green"))
         for warning in self.warnings:

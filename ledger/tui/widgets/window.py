@@ -96,7 +96,7 @@ class Window:
 
 def columns(tank_ids: Sequence[str]) -> list[tuple[str, str]]:
     cols = [("#", "id"), ("kind", "kind"), ("at (UTC)", "at"), ("engine", "engine"), ("amount", "amount"),
-            ("mass after kg", "mass")]
+            ("mass kg", "mass")]
     cols += [(f"{t} kg", f"tank:{t}") for t in tank_ids]
     cols += [("status", "status"), ("by", "by"), ("note", "note")]
     return cols

@@ -6,6 +6,7 @@ built only for the window on screen, each exactly as ``views.log`` would build i
 """
 from __future__ import annotations
 
+import bisect
 from dataclasses import dataclass, field
 from typing import Any, Iterable, Mapping, Sequence
 
@@ -23,6 +24,8 @@ class LogIndex:
     """Replay order of all entries and the lookups a row needs (built once per snapshot)."""
 
     order: tuple[int, ...]          # entry seqs in log order
+    keys: tuple[tuple[float, int], ...]  # their sort keys (time shown, seq)
+    entries: tuple[Entry, ...]      # the snapshot's entries, in seq order
     by_seq: Mapping[int, Entry]
     effect: Mapping[int, int]       # event seq -> replay index
     roots: Mapping[int, int]        # correction seq -> original entry seq
@@ -34,7 +37,11 @@ class LogIndex:
 
 
 def index(snap: Snapshot, prev: LogIndex | None = None) -> LogIndex:
-    """Build the index; search text already made for unchanged entries of ``prev`` is kept."""
+    """Build the index; from ``prev`` when the ledger only grew by entries other than corrections (the
+    new rows are inserted in order), and search text already made for unchanged entries is kept."""
+    grown = _grow(snap, prev) if prev is not None else None
+    if grown is not None:
+        return grown
     by_seq = {e.seq: e for e in snap.entries}
     roots: dict[int, int] = {}
     for e in snap.entries:
@@ -53,8 +60,41 @@ def index(snap: Snapshot, prev: LogIndex | None = None) -> LogIndex:
             return (snap.resolved.effective[roots[e.seq]].at, e.seq)
         return (e.at, e.seq)
 
-    order = tuple(e.seq for e in sorted(snap.entries, key=key))
-    return LogIndex(order, by_seq, effect, roots, last_fix, dict(prev.hay) if prev is not None else {})
+    ranked = sorted((key(e) for e in snap.entries))
+    order = tuple(k[1] for k in ranked)
+    return LogIndex(order, tuple(ranked), tuple(snap.entries), by_seq, effect, roots, last_fix,
+                    dict(prev.hay) if prev is not None else {})
+
+
+def _grow(snap: Snapshot, prev: LogIndex) -> LogIndex | None:
+    n = len(prev.entries)
+    if len(snap.entries) < n or snap.entries[:n] != prev.entries:  # same objects: a fast C comparison
+        return None
+    new = snap.entries[n:]
+    if any(e.kind == CORRECT for e in new):
+        return None
+    keys = list(prev.keys)
+    order = list(prev.order)
+    for e in new:
+        k = (e.at, e.seq)
+        if not keys or k > keys[-1]:
+            keys.append(k)
+            order.append(e.seq)
+        else:
+            i = bisect.bisect(keys, k)
+            keys.insert(i, k)
+            order.insert(i, e.seq)
+    by_seq = dict(prev.by_seq)
+    by_seq.update((e.seq, e) for e in new)
+    events = snap.resolved.events
+    m = len(prev.effect)
+    if len(events) >= m and all(prev.effect.get(ev.seq) == i for i, ev in ((m - 1, events[m - 1]),) if m):
+        effect = dict(prev.effect)  # events only appended: the old replay indices hold
+        effect.update((ev.seq, i) for i, ev in enumerate(events[m:], start=m))
+    else:
+        effect = {ev.seq: i for i, ev in enumerate(events)}
+    return LogIndex(tuple(order), tuple(keys), tuple(snap.entries), by_seq, effect, prev.roots,
+                    prev.last_fix, prev.hay)
 
 
 def row(snap: Snapshot, ix: LogIndex, seq: int) -> dict[str, Any]:

@@ -12,10 +12,14 @@ import os
 import threading
 from typing import Any, Mapping, Sequence
 
+from dataclasses import replace
+
+import numpy as np
+
 from ..core import capability as cap
 from ..core.codec import craft_from_dict
-from ..core.entries import Entry, resolve
-from ..core.replay import replay
+from ..core.entries import BURN, CORRECT, MASS, PLAN, USE, WITHDRAW, Entry, Resolved, resolve
+from ..core.replay import Replay, replay
 from ..errors import StoreError
 from ..store.chain import Break, digest
 from .ledger import Ledger, Snapshot, _warnings
@@ -116,13 +120,17 @@ class LiveLedger(Ledger):
             self._records, self._entries = [], []
             self._chain = ChainCheck(meta)
             m = 0
-        self._entries.extend(entry_from_record(r) for r in records[m:])
+        new = [entry_from_record(r) for r in records[m:]]
+        self._entries.extend(new)
         self._records = list(records)
         integrity = self._chain.feed(self._records) if verify else self._chain.brk
         craft = self._craft
         entries = tuple(self._entries)
-        resolved = resolve(entries)
-        rep = replay(craft, resolved.events)
+        grown = extend(craft, self._snap, new) if same and self._snap is not None else None
+        resolved, rep = grown if grown is not None else (None, None)
+        if resolved is None:
+            resolved = resolve(entries)
+            rep = replay(craft, resolved.events)
         state = cap.State(rep.mass_kg, rep.remaining_kg)
         engines = tuple(cap.capability(craft, state))
         warnings = _warnings(craft, resolved.events, rep, state, engines, integrity)
@@ -137,3 +145,52 @@ class LiveLedger(Ledger):
             if 1 <= seq <= len(self._records) and self._records[seq - 1].get("seq") == seq:
                 return self._records[seq - 1]
             return next((r for r in self._records if r.get("seq") == seq), None)
+
+
+def extend(craft, prev: Snapshot, new: Sequence[Entry]) -> tuple[Resolved, Replay] | None:
+    """``resolve`` and ``replay`` of prev's entries plus ``new``, reusing prev's, when the new entries
+    only append: no corrections, and events dated at or after the last event replayed. Otherwise None
+    (the caller resolves and replays everything). Replaying the new events alone from prev's final
+    state is the same prefix scan, started where the old one ended."""
+    res = prev.resolved
+    if not new:
+        return res, prev.replay
+    last = (res.events[-1].at, res.events[-1].seq) if res.events else None
+    effective = dict(res.effective)
+    executed_by = dict(res.executed_by)
+    withdrawn = set(res.withdrawn)
+    plans = list(res.pending)
+    events: list[Entry] = []
+    for e in new:
+        if e.kind == CORRECT:
+            return None
+        effective[e.seq] = e
+        if e.kind in (BURN, USE, MASS):
+            if last is not None and (e.at, e.seq) < last:
+                return None  # back-dated: everything after it replays again
+            last = (e.at, e.seq)
+            events.append(e)
+            if e.kind == BURN and e.get("plan") is not None:
+                executed_by[int(e.get("plan"))] = e.seq
+        elif e.kind == PLAN:
+            plans.append(e)
+        elif e.kind == WITHDRAW:
+            withdrawn.add(int(e.get("plan")))
+    pending = sorted((p for p in plans if p.seq not in executed_by and p.seq not in withdrawn),
+                     key=lambda p: (p.at, p.seq))
+    resolved = Resolved(res.events + tuple(events), tuple(pending), res.superseded, effective, executed_by,
+                        frozenset(withdrawn))
+    if not events:
+        return resolved, prev.replay
+    old = prev.replay
+    # the craft as it stands after the old events: same engines, tanks loaded with what remains
+    now = replace(craft, dry_mass_kg=old.mass_kg - float(old.remaining_kg.sum()),
+                  tanks=tuple(replace(t, load_kg=float(r)) for t, r in zip(craft.tanks, old.remaining_kg)))
+    part = replay(now, events)
+    rep = Replay(np.concatenate((old.mass_before, part.mass_before)),
+                 np.concatenate((old.mass_after, part.mass_after)),
+                 np.concatenate((old.propellant, part.propellant)), np.concatenate((old.dv, part.dv)),
+                 np.vstack((old.drawn.reshape(-1, len(craft.tanks)), part.drawn)),
+                 np.vstack((old.remaining.reshape(-1, len(craft.tanks)), part.remaining)),
+                 part.mass_kg, part.remaining_kg)
+    return resolved, rep

@@ -110,7 +110,12 @@ class LedgerConsole(App):
             if isinstance(screen, TrendScreen):
                 screen.show(snap)
         self.timings["apply_s"] = time.perf_counter() - t
+        if not self.loaded.is_set():
+            self.call_after_refresh(self._painted)
         self.loaded.set()
+
+    def _painted(self) -> None:
+        self.timings.setdefault("first_paint_at", time.perf_counter())
 
     # --- writing (forms call these; LedgerError goes back to the form) ---------------------------------
     def write(self, kind: str, data: dict[str, Any], *, at=None, by=None, note=None):

@@ -15,11 +15,19 @@ from ledger.services.live import LiveLedger
 
 
 def same(a, b) -> None:
-    assert len(a.entries) == len(b.entries)
+    """Equal snapshots; replayed floats to 1e-9 (the incremental replay restarts the prefix scan)."""
     assert a.entries == b.entries
+    assert a.resolved.events == b.resolved.events and a.resolved.pending == b.resolved.pending
+    assert dict(a.resolved.executed_by) == dict(b.resolved.executed_by)
+    assert a.resolved.withdrawn == b.resolved.withdrawn and a.resolved.superseded == b.resolved.superseded
+    for name in ("mass_before", "mass_after", "propellant", "dv", "drawn", "remaining"):
+        np.testing.assert_allclose(getattr(a.replay, name), getattr(b.replay, name), rtol=1e-12, atol=1e-9)
     assert a.state.mass_kg == pytest.approx(b.state.mass_kg, rel=0, abs=1e-9)
     np.testing.assert_allclose(a.state.remaining_kg, b.state.remaining_kg, atol=1e-9)
-    assert a.engines == b.engines
+    for x, y in zip(a.engines, b.engines, strict=True):
+        assert (x.engine, x.limiting_tank, x.reserves_met) == (y.engine, y.limiting_tank, y.reserves_met)
+        assert x.dv_free_m_s == pytest.approx(y.dv_free_m_s, abs=1e-9)
+        assert x.dv_available_m_s == pytest.approx(y.dv_available_m_s, abs=1e-9)
     assert a.warnings == b.warnings
     assert a.integrity == b.integrity
 
@@ -32,6 +40,51 @@ def test_live_snapshot_follows_own_and_outside_appends(ledger_path):
     assert live.changed()
     same(live.snapshot(), Ledger(ledger_path).snapshot())
     assert live.full_rebuilds == 1  # both appends were taken incrementally
+
+
+def test_incremental_snapshots_and_index_match_full_ones_over_random_appends(ledger_path):
+    """Appends in time order take the incremental path; back-dated ones, plan links, withdrawals and
+    corrections are mixed in; after each, the live snapshot and log index equal a fresh build."""
+    rng = np.random.default_rng(7)
+    live = LiveLedger(ledger_path)
+    ix = browse.index(live.snapshot())
+    other = Ledger(ledger_path)
+    t = other.snapshot().resolved.events[-1].at
+    for step in range(40):
+        t += 3600.0
+        roll = rng.random()
+        writer = live if step % 2 else other
+        if roll < 0.45:
+            writer.record("use", {"engine": "rcs", "duration": float(rng.uniform(1, 30))}, at=t)
+        elif roll < 0.6:
+            writer.record("burn", {"engine": "lae", "dv": float(rng.uniform(0.1, 2))}, at=t - 86400.0 * 3)
+        elif roll < 0.7:
+            writer.record("plan", {"engine": "lae", "dv": 1.0}, at=t + 86400.0)
+        elif roll < 0.8:
+            pending = live.snapshot().resolved.pending
+            if pending:
+                writer.record("burn", {"engine": pending[0].get("engine"), "dv": 0.9, "plan": pending[0].seq}, at=t)
+        elif roll < 0.9:
+            writer.record("mass", {"delta": -0.5}, at=t)
+        else:
+            writer.correct(int(rng.integers(4, 10)), {"duration": float(rng.uniform(30, 50))}, reason="recount")
+        snap = live.snapshot()
+        fresh = Ledger(ledger_path).snapshot()
+        same(snap, fresh)
+        ix = browse.index(snap, ix)
+        full = browse.index(fresh)
+        assert ix.order == full.order and dict(ix.effect) == dict(full.effect)
+        for mine, ref in zip(browse.rows(snap, ix, ix.order[-5:]), browse.rows(fresh, full, full.order[-5:]),
+                             strict=True):
+            assert mine.keys() == ref.keys()
+            for k, v in ref.items():
+                if isinstance(v, float):
+                    assert mine[k] == pytest.approx(v, rel=1e-12, abs=1e-9), k
+                elif isinstance(v, dict):
+                    assert mine[k] == pytest.approx(v, rel=1e-12, abs=1e-9), k
+                else:
+                    assert mine[k] == v, k
+    assert live.full_rebuilds == 1
 
 
 def test_live_snapshot_catches_an_edited_record(ledger_path):

@@ -23,8 +23,6 @@ from .dialogs.check import CheckDialog
 from .dialogs.detail import DetailDialog
 from .dialogs.entries import BurnForm, CorrectForm, MassForm, PlanForm, UseForm, WithdrawForm
 from .screens.main import MainScreen
-from .screens.setup import SetupScreen
-from .screens.trend import TrendScreen
 
 POLL_S = 0.3
 FORMS = {"burn": BurnForm, "plan": PlanForm, "mass": MassForm, "use": UseForm, "withdraw": WithdrawForm}
@@ -43,6 +41,7 @@ class LedgerConsole(App):
         self.main: MainScreen | None = None
         self.timings: dict[str, float] = {}
         self.loaded = threading.Event()      # first snapshot drawn (tests and benchmarks wait on it)
+        self._painted_once = threading.Event()
         self._busy = False
 
     # --- opening ------------------------------------------------------------------------------------
@@ -52,6 +51,7 @@ class LedgerConsole(App):
         if os.path.exists(self.path):
             self.start()
         else:
+            from .screens.setup import SetupScreen  # noqa: PLC0415 - yaml and scenarios only on first run
             self.push_screen(SetupScreen(self.path))
 
     def start(self) -> None:
@@ -72,6 +72,7 @@ class LedgerConsole(App):
         """Paint without hashing first (big ledgers), then verify the chain and repaint."""
         try:
             self.call_from_thread(self.apply, self.live.snapshot(verify=False))
+            self._painted_once.wait(5.0)  # hash after the first paint, not competing with it
             self.call_from_thread(self.apply, self.live.snapshot())
         except Exception as exc:  # noqa: BLE001 - shown, never a traceback
             self.call_from_thread(self.failed, exc)
@@ -107,7 +108,7 @@ class LedgerConsole(App):
         self.ix = browse.index(snap, self.ix)
         self.main.show(snap, self.ix, self.live.verified)
         for screen in self.screen_stack:
-            if isinstance(screen, TrendScreen):
+            if getattr(screen, "IS_TREND", False):
                 screen.show(snap)
         self.timings["apply_s"] = time.perf_counter() - t
         if not self.loaded.is_set():
@@ -116,6 +117,7 @@ class LedgerConsole(App):
 
     def _painted(self) -> None:
         self.timings.setdefault("first_paint_at", time.perf_counter())
+        self._painted_once.set()
 
     # --- writing (forms call these; LedgerError goes back to the form) ---------------------------------
     def write(self, kind: str, data: dict[str, Any], *, at=None, by=None, note=None):
@@ -154,6 +156,7 @@ class LedgerConsole(App):
 
     def open_trend(self) -> None:
         if self.snap is not None:
+            from .screens.trend import TrendScreen  # noqa: PLC0415 - plotext loads when first asked for
             self.push_screen(TrendScreen())
 
     def open_detail(self, seq: int) -> None:

@@ -38,6 +38,7 @@ def _frame(plt, title: str, ticks, labels) -> None:
 
 
 class TrendScreen(Screen):
+    IS_TREND = True
     BINDINGS = [Binding("escape", "back", "Back"), Binding("t", "back", "Back", show=False),
                 Binding("q", "back", "Back", show=False)]
     HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (120, "-wide")]

@@ -46,6 +46,7 @@ class LedgerConsole(App):
 
     # --- opening ------------------------------------------------------------------------------------
     def on_mount(self) -> None:
+        self.timings["mounted_at"] = time.perf_counter()
         from ..units import registry  # noqa: PLC0415 - warm pint up off the UI thread for the forms
         threading.Thread(target=registry, daemon=True).start()
         if os.path.exists(self.path):
@@ -71,7 +72,11 @@ class LedgerConsole(App):
     def _first_load(self) -> None:
         """Paint without hashing first (big ledgers), then verify the chain and repaint."""
         try:
-            self.call_from_thread(self.apply, self.live.snapshot(verify=False))
+            t = time.perf_counter()
+            first = self.live.snapshot(verify=False)
+            self.timings["first_read_s"] = time.perf_counter() - t
+            self.timings["first_read_done_at"] = time.perf_counter()
+            self.call_from_thread(self.apply, first)
             self._painted_once.wait(5.0)  # hash after the first paint, not competing with it
             self.call_from_thread(self.apply, self.live.snapshot())
         except Exception as exc:  # noqa: BLE001 - shown, never a traceback
@@ -112,6 +117,7 @@ class LedgerConsole(App):
                 screen.show(snap)
         self.timings["apply_s"] = time.perf_counter() - t
         if not self.loaded.is_set():
+            self.timings["first_apply_s"] = self.timings["apply_s"]
             self.call_after_refresh(self._painted)
         self.loaded.set()
 
@@ -135,6 +141,8 @@ class LedgerConsole(App):
         return stored, warnings
 
     def _after_write(self, stored: dict, warnings: list[str], t0: float) -> None:
+        window = self.main.window
+        window.cursor_seq, window.follow, window.anchor = stored["seq"], True, None  # show the new entry
         self.apply(self.live.snapshot())
         self.timings["record_to_panels_s"] = time.perf_counter() - t0
         self.notify(f"recorded entry #{stored['seq']} ({stored['kind']})", timeout=4)

@@ -196,3 +196,21 @@ def test_first_run_creates_the_ledger_from_a_craft_file(tmp_path):
 
     run(go())
     assert count(path) == 0
+
+
+def test_first_run_creates_the_ledger_from_a_bundled_scenario(tmp_path, monkeypatch):
+    from ledger.services import scenario  # noqa: PLC0415
+    monkeypatch.setattr(scenario, "bundled", lambda: {"testbed": CRAFT})
+    path = str(tmp_path / "from-scenario.json")
+
+    async def go():
+        app = make_app(path)
+        async with app.run_test(size=(100, 30)) as pilot:
+            await pilot.pause(0.1)
+            app.screen.query_one("#scenarios").focus()
+            await pilot.press("down", "enter")
+            await ready(app, pilot)
+            assert isinstance(app.screen, MainScreen) and app.snap.craft.name == "Testbed-7"
+
+    run(go())
+    assert os.path.exists(path)

@@ -11,7 +11,7 @@ from ledger.tui.app import make_app
 from tui_support import ready, run
 
 LABELS = ["Tanks", "Engines", "Watch", "Ledger", "free", "reserve", "residual", "dv free", "chain intact",
-          "PLAN", "BURN", "MASS", "USE", "WDRW", "CORR", "#13 PLAN", "Decision support only",
+          "PLAN", "BURN", "MASS", "USE", "WDRW", "CORR", "#13", "8.00 m/s", "Decision support only",
           "flight-dynamics system", "b Burn", "p Plan", "m Mass", "u Use", "w Withdraw", "c Correct",
           "k Check", "t Trend", "o Open", "/ Find", "f Kinds", "q Quit"]
 

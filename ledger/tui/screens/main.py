@@ -117,17 +117,18 @@ class MainScreen(Screen):
     def draw_rows(self) -> None:
         table = self.query_one(LedgerTable)
         tank_ids = tuple(self.snap.craft.tank_ids)
-        if self._columns_for != tank_ids:
+        narrow = self.size.width < 100
+        if self._columns_for != (tank_ids, narrow):
             table.clear(columns=True)
-            for label, key in columns(tank_ids):
+            for label, key in columns(tank_ids, narrow):
                 table.add_column(label, key=key)
-            self._columns_for = tank_ids
+            self._columns_for = (tank_ids, narrow)
         keep = self.window.cursor_seq
         seqs = self.window.seqs()
         rows = browse.rows(self.snap, self.ix, seqs)
         table.clear()
         for r in rows:
-            table.add_row(*cells(r, tank_ids), key=str(r["id"]))
+            table.add_row(*cells(r, tank_ids, narrow), key=str(r["id"]))
         if seqs:
             target = seqs.index(keep) if keep in seqs else len(seqs) - 1
             table.move_cursor(row=target, animate=False)

@@ -117,10 +117,12 @@ class WatchList(Widget):
             lines.append(Text("◇ no pending plans", style="grey62"))
         now = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M")
         for p in self.pending:
-            when = fmt.when(p["at"]) if w >= 50 else fmt.when(p["at"])[5:]
             late = " overdue" if p["at"][:16] < now else ""
-            lines.append(Text(f"◇ #{p['id']} PLAN {p['engine']} {p['dv_m_s']:,.2f} m/s at {when}{late}",
-                              style="yellow"))
+            if w >= 50:
+                text = f"◇ #{p['id']} PLAN {p['engine']} {p['dv_m_s']:,.2f} m/s at {fmt.when(p['at'])}{late}"
+            else:  # narrow: the date is enough
+                text = f"◇ #{p['id']} {p['engine']} {p['dv_m_s']:,.2f} m/s {fmt.when(p['at'])[5:10]}{late}"
+            lines.append(Text(text, style="yellow"))
         if not self.warnings:
             lines.append(Text("✓ no warnings", style="green"))
         for warning in self.warnings:

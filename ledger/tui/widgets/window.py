@@ -94,15 +94,16 @@ class Window:
         return self.sel[self.start:self.end]
 
 
-def columns(tank_ids: Sequence[str]) -> list[tuple[str, str]]:
-    cols = [("#", "id"), ("kind", "kind"), ("at (UTC)", "at"), ("engine", "engine"), ("amount", "amount"),
-            ("mass kg", "mass")]
+def columns(tank_ids: Sequence[str], narrow: bool = False) -> list[tuple[str, str]]:
+    """Column labels and keys; narrow terminals drop the year (the detail view has it) to fit 80 columns."""
+    cols = [("#", "id"), ("kind", "kind"), ("MM-DD UTC" if narrow else "at (UTC)", "at"),
+            ("eng" if narrow else "engine", "engine"), ("amount", "amount"), ("mass kg", "mass")]
     cols += [(f"{t} kg", f"tank:{t}") for t in tank_ids]
     cols += [("status", "status"), ("by", "by"), ("note", "note")]
     return cols
 
 
-def cells(row: dict[str, Any], tank_ids: Sequence[str]) -> list[Any]:
+def cells(row: dict[str, Any], tank_ids: Sequence[str], narrow: bool = False) -> list[Any]:
     """Table cells for one ``views.log`` row."""
     status = ""
     if row["kind"] == "plan":
@@ -122,7 +123,7 @@ def cells(row: dict[str, Any], tank_ids: Sequence[str]) -> list[Any]:
     out: list[Any] = [
         Text(str(row["id"]), justify="right"),
         fmt.kind_text(row["kind"], row.get("superseded", False)),
-        fmt.when(row.get("at")),
+        fmt.when(row.get("at"))[5:] if narrow else fmt.when(row.get("at")),
         row.get("engine") or "",
         Text(row.get("amount") or "", justify="right"),
         Text(fmt.kg(mass, 2) if mass is not None else "", justify="right"),

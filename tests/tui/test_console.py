@@ -20,7 +20,7 @@ from ledger.tui.dialogs.detail import DetailDialog
 from ledger.tui.screens.main import MainScreen
 from ledger.tui.screens.setup import SetupScreen
 from ledger.tui.screens.trend import TrendScreen
-from ledger.tui.widgets.window import LedgerTable
+from ledger.tui.widgets.grid import LedgerGrid
 from tui_support import CRAFT, count, ready, run, type_text
 
 
@@ -66,7 +66,7 @@ def test_outside_append_shows_within_two_seconds_keeping_place_and_form(ledger_p
         app = make_app(ledger_path)
         async with app.run_test(size=(100, 40)) as pilot:
             await ready(app, pilot)
-            table = app.main.query_one(LedgerTable)
+            table = app.main.query_one(LedgerGrid)
             await pilot.press("up", "up", "up")
             await pilot.pause(0.1)
             place = app.main.window.cursor_seq
@@ -85,8 +85,7 @@ def test_outside_append_shows_within_two_seconds_keeping_place_and_form(ledger_p
             await pilot.press("escape")
             await pilot.pause(0.1)
             assert app.main.window.cursor_seq == place
-            key = table.coordinate_to_cell_key(table.cursor_coordinate).row_key.value
-            assert key == str(place)
+            assert table.cursor_key == str(place)
 
     run(go())
 

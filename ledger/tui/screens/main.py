@@ -9,14 +9,15 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.containers import Container, Horizontal, Vertical
 from textual.screen import Screen
-from textual.widgets import DataTable, Input, Label, Static
+from textual.widgets import Input, Label, Static
 
 from ...services import browse, views
 from ...services.ledger import Snapshot
 from .. import actions, fmt
 from ..widgets.keybar import KeyBar
 from ..widgets.state import EngineTable, TankGauges, WatchList
-from ..widgets.window import LedgerTable, Window, cells, columns
+from ..widgets.grid import LedgerGrid
+from ..widgets.window import Window, cells, columns
 
 KIND_CYCLE = (None, "burn", "plan", "mass", "use", "withdraw", "correct")
 KEYS = [(a.key_display or a.key, a.label, f"screen.{a.name}") for a in actions.ACTIONS] + [
@@ -36,7 +37,6 @@ class MainScreen(Screen):
         self.window = Window()
         self.kind_filter: str | None = None
         self.find_text = ""
-        self._columns_for: tuple[str, ...] | None = None
         self._find_timer = None
 
     def compose(self) -> ComposeResult:
@@ -55,14 +55,14 @@ class MainScreen(Screen):
                     yield Label("find ", id="find-label")
                     yield Input(placeholder="words in id, kind, engine, note, by, reason, time; Enter",
                                 id="find", compact=True)
-                yield LedgerTable(id="ledger", cursor_type="row", zebra_stripes=True)
+                yield LedgerGrid(id="ledger")
         yield KeyBar(KEYS, id="keys")
         yield Static(SHORT_CAUTION, id="caution")
 
     def on_mount(self) -> None:
         self.query_one("#engines-box").border_title = "Engines · m/s"
         self.query_one("#watch-box").border_title = "Watch"
-        self.query_one(LedgerTable).focus()
+        self.query_one(LedgerGrid).focus()
         self.app.main_ready()
 
     # --- data in ---------------------------------------------------------------------------------
@@ -105,33 +105,25 @@ class MainScreen(Screen):
         """Re-select entries with the filters and redraw the window's rows."""
         if self.snap is None:
             return
-        table = self.query_one(LedgerTable)
+        table = self.query_one(LedgerGrid)
         sel = browse.select(self.ix, [self.kind_filter] if self.kind_filter else None, self.find_text)
         if not keep_place:
             self.window.follow, self.window.anchor = True, None
         self.window.reselect(sel)
-        visible = table.scrollable_content_region.height - 1
-        self.window.size = max(3, visible) if table.size.height > 1 else 20
+        self.window.size = max(3, table.page_rows) if table.size.height > 1 else 20
         self.draw_rows()
 
     def draw_rows(self) -> None:
-        table = self.query_one(LedgerTable)
+        table = self.query_one(LedgerGrid)
         tank_ids = tuple(self.snap.craft.tank_ids)
         narrow = self.size.width < 100
-        if self._columns_for != (tank_ids, narrow):
-            table.clear(columns=True)
-            for label, key in columns(tank_ids, narrow):
-                table.add_column(label, key=key)
-            self._columns_for = (tank_ids, narrow)
         keep = self.window.cursor_seq
         seqs = self.window.seqs()
         rows = browse.rows(self.snap, self.ix, seqs)
-        table.clear()
-        for r in rows:
-            table.add_row(*cells(r, tank_ids, narrow), key=str(r["id"]))
+        target = seqs.index(keep) if keep in seqs else len(seqs) - 1
+        table.set_page([label for label, _ in columns(tank_ids, narrow)],
+                       [(str(r["id"]), cells(r, tank_ids, narrow)) for r in rows], target)
         if seqs:
-            target = seqs.index(keep) if keep in seqs else len(seqs) - 1
-            table.move_cursor(row=target, animate=False)
             self.window.cursor_seq = seqs[target]
         self.update_pager()
 
@@ -150,11 +142,11 @@ class MainScreen(Screen):
         self.query_one("#findbar").display = bool(self.find_text) or self.query_one("#find", Input).has_focus
 
     # --- ledger window events ---------------------------------------------------------------------
-    def on_ledger_table_edge(self, event: LedgerTable.Edge) -> None:
+    def on_ledger_grid_edge(self, event: LedgerGrid.Edge) -> None:
         if event.step == 0:  # the table was resized: a page is now a different number of rows
             self.refill()
             return
-        table = self.query_one(LedgerTable)
+        table = self.query_one(LedgerGrid)
         before = self.window.end
         self.window.move(event.step)
         if self.window.end == before:
@@ -165,15 +157,11 @@ class MainScreen(Screen):
         self.draw_rows()
         table.focus()
 
-    def on_data_table_row_highlighted(self, event: DataTable.RowHighlighted) -> None:
-        table = event.data_table
-        if event.row_key is None or event.row_key.value is None or not table.row_count:
-            return
-        current = table.coordinate_to_cell_key(table.cursor_coordinate).row_key
-        if current == event.row_key:  # stale events from a redraw name a row the cursor has left
-            self.window.cursor_seq = int(event.row_key.value)
+    def on_ledger_grid_highlighted(self, event: LedgerGrid.Highlighted) -> None:
+        self.window.cursor_seq = int(event.key)
 
-    def on_data_table_row_selected(self, event: DataTable.RowSelected) -> None:
+    def on_ledger_grid_selected(self, event: LedgerGrid.Selected) -> None:
+        self.window.cursor_seq = int(event.key)
         self.action_detail()
 
     # --- find and filter --------------------------------------------------------------------------
@@ -191,7 +179,7 @@ class MainScreen(Screen):
     def on_input_submitted(self, event: Input.Submitted) -> None:
         if event.input.id == "find":
             self._apply_find()
-            self.query_one(LedgerTable).focus()
+            self.query_one(LedgerGrid).focus()
             self.update_pager()
 
     def key_escape(self) -> None:
@@ -200,7 +188,7 @@ class MainScreen(Screen):
             if box.value:
                 box.value = ""
                 self._apply_find()
-            self.query_one(LedgerTable).focus()
+            self.query_one(LedgerGrid).focus()
             self.update_pager()
 
     def action_find(self) -> None:

@@ -1,7 +1,7 @@
 """The ledger window: a page of entries around the user's place, never the whole ledger.
 
-DataTable measures every cell it is given, so it only ever holds one page (as many rows as fit). The
-window remembers where the user is: following the newest entries, or anchored on an entry, and the
+The grid only ever holds one page (as many rows as fit); a 20k-entry ledger is never handed to a
+widget whole. The window remembers where the user is: following the newest entries, or anchored on an entry, and the
 entry under the cursor; a reload keeps both.
 """
 from __future__ import annotations
@@ -9,52 +9,9 @@ from __future__ import annotations
 from typing import Any, Sequence
 
 from rich.text import Text
-from textual.message import Message
-from textual.widgets import DataTable
 
 from .. import fmt
-
-
-PAGE, END = 10**6, 10**9
-
-
-class LedgerTable(DataTable):
-    """DataTable whose up/down/page keys past the page edge ask the window for the next page."""
-
-    class Edge(Message):
-        def __init__(self, step: int) -> None:
-            super().__init__()
-            self.step = step  # rows to move the window by; +/-PAGE a page, +/-END to an end
-
-    def on_resize(self) -> None:
-        self.post_message(self.Edge(0))
-
-    def action_cursor_up(self) -> None:
-        if self.cursor_row <= 0:
-            self.post_message(self.Edge(-1))
-        else:
-            super().action_cursor_up()
-
-    def action_cursor_down(self) -> None:
-        if self.cursor_row >= self.row_count - 1:
-            self.post_message(self.Edge(1))
-        else:
-            super().action_cursor_down()
-
-    def action_page_up(self) -> None:
-        self.post_message(self.Edge(-PAGE))
-
-    def action_page_down(self) -> None:
-        self.post_message(self.Edge(PAGE))
-
-    def action_scroll_top(self) -> None:
-        self.post_message(self.Edge(-END))
-
-    def action_scroll_bottom(self) -> None:
-        self.post_message(self.Edge(END))
-
-    action_scroll_home = action_scroll_top
-    action_scroll_end = action_scroll_bottom
+from .grid import PAGE
 
 
 class Window:

@@ -66,10 +66,6 @@ def kg(x: float | None, digits: int = 2) -> str:
     return "" if x is None else f"{x:,.{digits}f}"
 
 
-def ms(x: float | None, digits: int = 2) -> str:
-    return "" if x is None else f"{x:,.{digits}f}"
-
-
 def gauge(t: dict, width: int) -> Text:
     """One tank as a bar over its load: residual, reserve share, free usable, then what is used."""
     width = max(8, width)

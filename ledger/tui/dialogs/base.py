@@ -16,6 +16,7 @@ from textual.widgets import Button, Input, Label, Select, Static
 
 from ...errors import LedgerError
 from ...services.records import default_user
+from ...services.views import CAUTION
 from . import fields
 
 
@@ -37,6 +38,7 @@ def text_field(name: str, label: str, placeholder: str = "", value: str = "") ->
 class FormDialog(ModalScreen):
     """Base for every entry form. ``submit`` calls ``commit(values)``; a LedgerError lands in the form."""
 
+    VERTICAL_BREAKPOINTS = [(0, "-short"), (30, "-tall")]
     TITLE = "Entry"
     HINT = ""
     FOCUS = ""  # field to start in (default: the first)
@@ -81,6 +83,7 @@ class FormDialog(ModalScreen):
             with Horizontal(id="form-buttons"):
                 yield Button("Record  ctrl+s", id="ok", variant="primary", compact=True)
                 yield Button("Cancel  esc", id="cancel", compact=True)
+            yield Static(CAUTION, id="form-caution")
 
     def on_mount(self) -> None:
         start = self.query(f"#f-{self.FOCUS}") if self.FOCUS else None

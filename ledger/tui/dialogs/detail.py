@@ -10,6 +10,7 @@ from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
+from ...services.views import CAUTION
 from .. import fmt
 
 UNITS = {"dv": "m/s", "duration": "s", "propellant": "kg", "delta": "kg"}
@@ -71,6 +72,7 @@ class DetailDialog(ModalScreen):
             yield Static(f"Entry #{self.detail['id']}", id="form-title")
             with VerticalScroll(id="detail-body"):
                 yield Static(detail_text(self.detail), id="detail")
+            yield Static(CAUTION, id="form-caution")
             yield Static("esc close · c correct" + (" · k check this plan" if self.detail["kind"] == "plan"
                                                      and self.detail.get("state") == "pending" else ""),
                          id="form-keys")

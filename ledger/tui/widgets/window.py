@@ -25,13 +25,13 @@ class Window:
         self.anchor: int | None = None  # seq of the last row shown when not following
         self.cursor_seq: int | None = None
 
-    def reselect(self, sel: Sequence[int], pos: dict[int, int] | None = None) -> None:
+    def reselect(self, sel: Sequence[int]) -> None:
         """New selection (reload or filter): keep following, or keep the anchor row last on screen."""
         self.sel = sel
         if self.follow or self.anchor is None:
             self.end = len(sel)
             return
-        where = pos if pos is not None else {s: i for i, s in enumerate(sel)}
+        where = {s: i for i, s in enumerate(sel)}
         self.end = where[self.anchor] + 1 if self.anchor in where else len(sel)
         self.follow = self.end >= len(sel)
 

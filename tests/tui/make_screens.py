@@ -44,9 +44,14 @@ def to_png(svg_path: str, png_path: str) -> None:
     with tempfile.NamedTemporaryFile("w", suffix=".svg", delete=False, encoding="utf-8") as tmp:
         tmp.write(svg)
     try:
-        subprocess.run(["rsvg-convert", tmp.name, "-o", png_path], check=True)
+        subprocess.run(["rsvg-convert", "-z", "0.8", tmp.name, "-o", png_path], check=True)
     finally:
         os.unlink(tmp.name)
+    from PIL import Image  # noqa: PLC0415 - a matplotlib dependency; keeps the committed PNGs small
+
+    with Image.open(png_path) as im:
+        small = im.convert("RGB").quantize(colors=128, method=Image.Quantize.FASTOCTREE)
+    small.save(png_path, optimize=True)
 
 
 async def shoot(path: str, name: str, size, keys=()) -> None:

@@ -213,3 +213,28 @@ def test_first_run_creates_the_ledger_from_a_bundled_scenario(tmp_path, monkeypa
 
     run(go())
     assert os.path.exists(path)
+
+
+def test_mouse_picks_a_row_and_opens_it_and_columns_scroll(ledger_path):
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            grid = app.main.query_one(LedgerGrid)
+            await pilot.click("#ledger", offset=(5, 1))  # first data row under the header
+            await pilot.pause(0.05)
+            first = grid.rows[0][0]
+            assert grid.cursor == 0 and app.main.window.cursor_seq == int(first)
+            await pilot.click("#ledger", offset=(5, 1))  # again: open it
+            await pilot.pause(0.1)
+            assert isinstance(app.screen, DetailDialog) and app.screen.detail["id"] == int(first)
+            await pilot.press("escape")
+            await pilot.pause(0.05)
+            text = str(grid.render())
+            assert "›" in text.splitlines()[0]  # more columns to the right at 80 columns
+            await pilot.press("right")
+            assert grid.first_col == 1 and "‹" in str(grid.render()).splitlines()[0]
+            await pilot.press("left")
+            assert grid.first_col == 0
+
+    run(go())

@@ -4,7 +4,7 @@ Textual's DataTable renders every cell through rich's padding and cropping; for 
 columns that was about half a second of the first paint on a loaded 2-core machine. The window only ever
 shows one page, so a grid that joins each row into a single line does the same job in milliseconds:
 fixed column widths from the page's contents, a header, a highlighted cursor row, zebra stripes,
-horizontal scrolling by column, keys and mouse.
+horizontal scrolling by whole columns (‹ › in the header say more are off screen), keys and mouse.
 """
 from __future__ import annotations
 
@@ -113,9 +113,20 @@ class LedgerGrid(Widget, can_focus=True):
                     widths[j] = min(n, MAX_WIDTH)
         return widths
 
-    def _line(self, cells: Sequence[Any], widths: list[int], style: Style | None) -> Text:
-        line = Text(no_wrap=True, overflow="crop", end="")
+    def _shown(self, widths: list[int]) -> range:
+        """Columns that fit whole from ``first_col`` on (a column is never cut mid-label)."""
+        used, last = 0, self.first_col
         for j in range(self.first_col, len(widths)):
+            if used + widths[j] + 2 > self.size.width - 1 and j > self.first_col:
+                break
+            used += widths[j] + 2
+            last = j + 1
+        return range(self.first_col, last)
+
+    def _line(self, cells: Sequence[Any], widths: list[int], style: Style | None, shown: range,
+              more: str = "") -> Text:
+        line = Text(no_wrap=True, overflow="crop", end="")
+        for j in shown:
             cell = cells[j]
             text = cell.copy() if isinstance(cell, Text) else Text(str(cell))
             text.truncate(widths[j], overflow="ellipsis")
@@ -128,7 +139,8 @@ class LedgerGrid(Widget, can_focus=True):
                 line.append_text(text)
                 line.append(" " * pad)
             line.append(" ")
-        line.truncate(self.size.width, pad=True)
+        line.truncate(self.size.width - len(more), pad=True)
+        line.append(more)
         if style is not None:
             line.stylize(style, 0, len(line))
         return line
@@ -141,10 +153,12 @@ class LedgerGrid(Widget, can_focus=True):
         # backgrounds only, so each cell keeps its own colour (the kind labels)
         cursor = Style(bgcolor=self.get_component_rich_style("grid--cursor").bgcolor, bold=self.has_focus)
         stripe = Style(bgcolor=self.get_component_rich_style("grid--stripe").bgcolor)
-        lines = [self._line(self.columns, widths, header)]
+        shown = self._shown(widths)
+        more = ("‹" if self.first_col else "") + ("›" if shown.stop < len(widths) else "")
+        lines = [self._line(self.columns, widths, header, shown, more)]
         for i, (_, cells) in enumerate(self.rows[: self.page_rows]):
             style = cursor if i == self.cursor else (stripe if i % 2 else None)
-            lines.append(self._line(cells, widths, style))
+            lines.append(self._line(cells, widths, style, shown))
         return Text("\n").join(lines)
 
     def on_focus(self) -> None:

@@ -238,3 +238,14 @@ def test_mouse_picks_a_row_and_opens_it_and_columns_scroll(ledger_path):
             assert grid.first_col == 0
 
     run(go())
+
+
+def test_no_command_opens_the_console_on_the_chosen_ledger(ledger_path, monkeypatch):
+    from ledger.cli import main  # noqa: PLC0415
+    from ledger.tui.app import LedgerConsole  # noqa: PLC0415
+    opened = []
+    monkeypatch.setattr(LedgerConsole, "run", lambda self, *a, **k: opened.append(self.path))
+    assert main(["--ledger", ledger_path]) == 0
+    monkeypatch.setenv("PROPLEDGER_LEDGER", ledger_path)
+    assert main([]) == 0
+    assert opened == [os.path.abspath(ledger_path)] * 2

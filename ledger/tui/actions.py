@@ -26,6 +26,7 @@ ACTIONS = (
     Action("k", "check", "Check", "Check a manoeuvre", "engine and delta-v or a pending plan; records nothing"),
     Action("t", "trend", "Trend", "Show the trend", "propellant per tank and dv free over time"),
     Action("o", "detail", "Open", "Open the selected entry", "all fields, who, when logged, what it drew"),
+    Action("a", "alerts", "Alerts", "Show every warning in full", "chain integrity, overdrawn tanks, reserves"),
     Action("slash", "find", "Find", "Find entries", "search id, engine, note, by, reason, time", "/"),
     Action("f", "kinds", "Kinds", "Filter by kind", "cycle: all, burns, plans, mass, uses, withdrawals, corrections"),
     Action("q", "quit", "Quit", "Quit the console", "the ledger is already saved"),

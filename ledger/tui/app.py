@@ -20,7 +20,7 @@ from ..services.ledger import Snapshot, resolve_path
 from ..services.live import LiveLedger
 from . import actions
 from .dialogs.check import CheckDialog
-from .dialogs.detail import DetailDialog
+from .dialogs.detail import AlertsDialog, DetailDialog
 from .dialogs.entries import BurnForm, CorrectForm, MassForm, PlanForm, UseForm, WithdrawForm
 from .screens.main import MainScreen
 
@@ -166,6 +166,12 @@ class LedgerConsole(App):
         if self.snap is not None:
             from .screens.trend import TrendScreen  # noqa: PLC0415 - plotext loads when first asked for
             self.push_screen(TrendScreen())
+
+    def open_alerts(self) -> None:
+        if self.snap is not None:
+            chain = ("intact" if self.live.verified else "being checked") if self.snap.integrity is None \
+                else f"BROKEN: {self.snap.integrity}"
+            self.push_screen(AlertsDialog(chain, [w for w in self.snap.warnings if not w.startswith("INTEGRITY")]))
 
     def open_detail(self, seq: int) -> None:
         d = browse.detail(self.snap, self.ix, seq, self.live.record_of(seq))

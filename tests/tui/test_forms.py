@@ -191,3 +191,28 @@ def test_escape_cancels_without_writing(ledger_path):
 
     run(go())
     assert count(ledger_path) == 15
+
+
+def test_an_executed_burn_beyond_the_model_is_recorded_with_a_warning(ledger_path):
+    """Rules: an executed burn is always recorded; a warning says it contradicts the model."""
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(160, 48)) as pilot:
+            screen = await open_form(app, pilot, "b")
+            await type_text(pilot, "3000 m/s")
+            await pilot.press("ctrl+s")
+            await pilot.pause(0.3)
+            assert not isinstance(app.screen, FormDialog)
+            notes = [n.message for n in app._notifications]
+            assert any("recorded entry #16" in n for n in notes)
+            assert any(n.severity == "warning" for n in app._notifications)
+            watch = str(app.main.query_one("#watch").render())
+            assert "⚠" in watch and "reserves" in watch
+            assert "warning" in str(app.main.query_one("#masthead", Static).render())
+            await pilot.press("a")
+            await pilot.pause(0.1)
+            text = str(app.screen.query_one("#alerts", Static).render())
+            assert "reserves can no longer be met" in text and "chain: intact" in text
+
+    run(go())
+    assert count(ledger_path) == 16

@@ -13,7 +13,7 @@ from tui_support import ready, run
 LABELS = ["Tanks", "Engines", "Watch", "Ledger", "free", "reserve", "residual", "dv free", "chain intact",
           "PLAN", "BURN", "MASS", "USE", "WDRW", "CORR", "#13", "8.00 m/s", "Decision support only",
           "flight-dynamics system", "b Burn", "p Plan", "m Mass", "u Use", "w Withdraw", "c Correct",
-          "k Check", "t Trend", "o Open", "/ Find", "f Kinds", "q Quit"]
+          "k Check", "t Trend", "o Open", "a Alerts", "/ Find", "f Kinds", "q Quit"]
 
 
 def svg_text(svg: str) -> str:

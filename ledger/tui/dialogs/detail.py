@@ -86,3 +86,29 @@ class DetailDialog(ModalScreen):
     def action_check(self) -> None:
         if self.detail["kind"] == "plan" and self.detail.get("state") == "pending":
             self.dismiss(("check", self.detail["id"]))
+
+
+class AlertsDialog(ModalScreen):
+    """Every warning of the snapshot in full (the watch panel cuts them to one line on narrow screens)."""
+
+    BINDINGS = [Binding("escape", "close", "Close"), Binding("enter", "close", "Close", show=False),
+                Binding("a", "close", "Close", show=False)]
+
+    def __init__(self, chain: str, warnings: list[str]) -> None:
+        super().__init__(classes="form-dialog")
+        self.chain, self.warnings = chain, warnings
+
+    def compose(self) -> ComposeResult:
+        body = Text()
+        body.append(f"chain: {self.chain}\n\n", style="bold")
+        for w in self.warnings or ["no warnings"]:
+            body.append(("⚠ " if self.warnings else "✓ ") + w + "\n\n")
+        with Vertical(id="form"):
+            yield Static(f"Alerts ({len(self.warnings)})", id="form-title")
+            with VerticalScroll(id="detail-body"):
+                yield Static(body, id="alerts")
+            yield Static(CAUTION, id="form-caution")
+            yield Static("esc close", id="form-keys")
+
+    def action_close(self) -> None:
+        self.dismiss(None)

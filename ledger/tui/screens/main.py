@@ -72,8 +72,10 @@ class MainScreen(Screen):
         st = views.status(snap)
         chain = "chain ✓" if snap.integrity is None and verified else "chain …" if snap.integrity is None \
             else "chain ✗ BROKEN"
-        parts = [f"mass {st['mass_kg']:,.2f} kg", f"{st['entries']:,} entries", chain,
-                 f"{len(st['pending_plans'])} pending", f"last event {fmt.when(st['as_of']) or '-'} UTC", snap.path]
+        parts = [f"mass {st['mass_kg']:,.2f} kg", f"{st['entries']:,} entries", chain]
+        if st["warnings"]:
+            parts.insert(0, f"⚠ {len(st['warnings'])} warning{'s' if len(st['warnings']) > 1 else ''}")
+        parts += [f"{len(st['pending_plans'])} pending", f"last event {fmt.when(st['as_of']) or '-'} UTC", snap.path]
         self.masthead(st["craft"], parts)
         self.query_one(TankGauges).show(browse.tanks(snap))
         box = self.query_one("#tanks-box")
@@ -233,6 +235,9 @@ class MainScreen(Screen):
     def action_detail(self) -> None:
         if self.selected() is not None:
             self.app.open_detail(self.selected())
+
+    def action_alerts(self) -> None:
+        self.app.open_alerts()
 
     def action_quit(self) -> None:
         self.app.exit()

@@ -4,6 +4,7 @@ They only draw what the screen hands them (plain dicts from the services); they 
 """
 from __future__ import annotations
 
+import textwrap
 from datetime import datetime, timezone
 from typing import Any, Sequence
 
@@ -105,8 +106,17 @@ class WatchList(Widget):
         self.chain, self.pending, self.warnings = chain, pending, warnings
         self.refresh(layout=True)
 
+    def _warning_lines(self, width: int) -> list[str]:
+        """Wide panels wrap each warning (they carry figures); narrow ones keep one line each."""
+        if width < 50:
+            return [f"⚠ {w}" for w in self.warnings]
+        out = []
+        for w in self.warnings:
+            out += textwrap.wrap(f"⚠ {w}", width=max(10, width), subsequent_indent="  ")
+        return out
+
     def get_content_height(self, container, viewport, width: int) -> int:
-        return 1 + max(1, len(self.pending)) + max(1, len(self.warnings))
+        return 1 + max(1, len(self.pending)) + max(1, len(self._warning_lines(width)))
 
     def render(self) -> Text:
         w = max(10, self.size.width)
@@ -125,6 +135,6 @@ class WatchList(Widget):
             lines.append(Text(text, style="yellow"))
         if not self.warnings:
             lines.append(Text("✓ no warnings", style="green"))
-        for warning in self.warnings:
-            lines.append(Text(f"⚠ {warning}", style="dark_orange"))
+        for line in self._warning_lines(w):
+            lines.append(Text(line, style="dark_orange"))
         return Text("\n").join(fmt.fit(line, w) for line in lines)

@@ -1,0 +1,37 @@
+"""Every console action once: its key, footer label and command-palette wording (one source for both)."""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from textual.binding import Binding
+
+
+@dataclass(frozen=True)
+class Action:
+    key: str
+    name: str          # action_<name> on the main screen
+    label: str         # footer
+    title: str         # command palette
+    help: str
+    key_display: str | None = None
+
+
+ACTIONS = (
+    Action("b", "burn", "Burn", "Log an executed burn", "delta-v, duration or propellant; may execute a plan"),
+    Action("p", "plan", "Plan", "Log a planned burn", "engine, delta-v and the planned time"),
+    Action("m", "mass", "Mass", "Log a mass change", "signed, e.g. -35 kg for a separation"),
+    Action("u", "use", "Use", "Log other propellant use", "attitude control, venting: a duration or a mass"),
+    Action("w", "withdraw", "Withdraw", "Withdraw a pending plan", "the plan stays, marked withdrawn"),
+    Action("c", "correct", "Correct", "Correct the selected entry", "a new entry supersedes it; the original stays"),
+    Action("k", "check", "Check", "Check a manoeuvre", "engine and delta-v or a pending plan; records nothing"),
+    Action("t", "trend", "Trend", "Show the trend", "propellant per tank and dv free over time"),
+    Action("o", "detail", "Open", "Open the selected entry", "all fields, who, when logged, what it drew"),
+    Action("a", "alerts", "Alerts", "Show every warning in full", "chain integrity, overdrawn tanks, reserves"),
+    Action("slash", "find", "Find", "Find entries", "search id, engine, note, by, reason, time", "/"),
+    Action("f", "kinds", "Kinds", "Filter by kind", "cycle: all, burns, plans, mass, uses, withdrawals, corrections"),
+    Action("q", "quit", "Quit", "Quit the console", "the ledger is already saved"),
+)
+
+
+def bindings() -> list[Binding]:
+    return [Binding(a.key, a.name, a.label, key_display=a.key_display) for a in ACTIONS]

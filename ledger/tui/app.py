@@ -1,0 +1,203 @@
+"""The console app: opens a ledger, keeps it live, and carries out what the screens ask.
+
+Loading and reloading run in a worker thread (a 20k-entry ledger takes a good part of a second to
+read the first time); the file is polled with one ``stat`` every 0.3 s, so another process's append
+shows within a second. Writes go through ``LiveLedger`` (the services' own ``record``/``correct``), and
+the panels are redrawn from the snapshot that write leaves behind.
+"""
+from __future__ import annotations
+
+import os
+import threading
+import time
+from typing import Any, Iterable
+
+from textual.app import App, SystemCommand
+from textual.screen import Screen
+
+from ..services import browse
+from ..services.ledger import Snapshot, resolve_path
+from ..services.live import LiveLedger
+from . import actions
+from .dialogs.check import CheckDialog
+from .dialogs.detail import AlertsDialog, DetailDialog
+from .dialogs.entries import BurnForm, CorrectForm, MassForm, PlanForm, UseForm, WithdrawForm
+from .screens.main import MainScreen
+
+POLL_S = 0.3
+FORMS = {"burn": BurnForm, "plan": PlanForm, "mass": MassForm, "use": UseForm, "withdraw": WithdrawForm}
+
+
+class LedgerConsole(App):
+    CSS_PATH = "console.tcss"
+    TITLE = "propledger"
+
+    def __init__(self, path: str) -> None:
+        super().__init__()
+        self.path = os.path.abspath(path)
+        self.live = LiveLedger(self.path)
+        self.snap: Snapshot | None = None
+        self.ix: browse.LogIndex | None = None
+        self.main: MainScreen | None = None
+        self.timings: dict[str, float] = {}
+        self.loaded = threading.Event()      # first snapshot drawn (tests and benchmarks wait on it)
+        self._painted_once = threading.Event()
+        self._busy = False
+
+    # --- opening ------------------------------------------------------------------------------------
+    def on_mount(self) -> None:
+        self.timings["mounted_at"] = time.perf_counter()
+        from ..units import registry  # noqa: PLC0415 - warm pint up off the UI thread for the forms
+        threading.Thread(target=registry, daemon=True).start()
+        if os.path.exists(self.path):
+            self.start()
+        else:
+            from .screens.setup import SetupScreen  # noqa: PLC0415 - yaml and scenarios only on first run
+            self.push_screen(SetupScreen(self.path))
+
+    def start(self) -> None:
+        self.main = MainScreen()
+        self.push_screen(self.main)
+
+    def main_ready(self) -> None:
+        """The main screen is composed: read the ledger and start watching the file."""
+        self.set_interval(POLL_S, self.poll)
+        self._busy = True
+        self.run_worker(self._first_load, thread=True, group="load")
+
+    def ledger_created(self) -> None:
+        self.pop_screen()
+        self.start()
+
+    def _first_load(self) -> None:
+        """Paint without hashing first (big ledgers), then verify the chain and repaint."""
+        try:
+            t = time.perf_counter()
+            first = self.live.snapshot(verify=False)
+            self.timings["first_read_s"] = time.perf_counter() - t
+            self.timings["first_read_done_at"] = time.perf_counter()
+            self.call_from_thread(self.apply, first)
+            self._painted_once.wait(5.0)  # hash after the first paint, not competing with it
+            self.call_from_thread(self.apply, self.live.snapshot())
+        except Exception as exc:  # noqa: BLE001 - shown, never a traceback
+            self.call_from_thread(self.failed, exc)
+        finally:
+            self._busy = False
+
+    # --- live -----------------------------------------------------------------------------------------
+    def poll(self) -> None:
+        if not self._busy and self.snap is not None and self.live.changed():
+            self._busy = True
+            self.run_worker(self._reload, thread=True, group="load")
+
+    def _reload(self) -> None:
+        try:
+            t = time.perf_counter()
+            snap = self.live.snapshot()
+            self.timings["reload_s"] = time.perf_counter() - t
+            self.call_from_thread(self.apply, snap)
+        except Exception as exc:  # noqa: BLE001
+            self.call_from_thread(self.failed, exc)
+        finally:
+            self._busy = False
+
+    def failed(self, exc: Exception) -> None:
+        self.notify(f"cannot read the ledger: {exc}", severity="error", timeout=10)
+
+    def apply(self, snap: Snapshot) -> None:
+        """Hand a snapshot to every screen that shows one."""
+        if snap is self.snap and self.loaded.is_set() and self.live.verified:
+            return
+        t = time.perf_counter()
+        self.snap = snap
+        self.ix = browse.index(snap, self.ix)
+        self.main.show(snap, self.ix, self.live.verified)
+        for screen in self.screen_stack:
+            if getattr(screen, "IS_TREND", False):
+                screen.show(snap)
+        self.timings["apply_s"] = time.perf_counter() - t
+        if not self.loaded.is_set():
+            self.timings["first_apply_s"] = self.timings["apply_s"]
+            self.call_after_refresh(self._painted)
+        self.loaded.set()
+
+    def _painted(self) -> None:
+        self.timings.setdefault("first_paint_at", time.perf_counter())
+        self._painted_once.set()
+
+    # --- writing (forms call these; LedgerError goes back to the form) ---------------------------------
+    def write(self, kind: str, data: dict[str, Any], *, at=None, by=None, note=None):
+        t = time.perf_counter()
+        stored, warnings = self.live.record(kind, data, at=at, by=by, note=note)
+        self.timings["write_s"] = time.perf_counter() - t
+        self._after_write(stored, warnings, t)
+        return stored, warnings
+
+    def write_correction(self, target: int, changes: dict[str, Any], *, reason: str, by=None):
+        t = time.perf_counter()
+        stored, warnings = self.live.correct(target, changes, reason=reason, by=by)
+        self.timings["write_s"] = time.perf_counter() - t
+        self._after_write(stored, warnings, t)
+        return stored, warnings
+
+    def _after_write(self, stored: dict, warnings: list[str], t0: float) -> None:
+        window = self.main.window
+        window.cursor_seq, window.follow, window.anchor = stored["seq"], True, None  # show the new entry
+        self.apply(self.live.snapshot())
+        self.timings["record_to_panels_s"] = time.perf_counter() - t0
+        self.notify(f"recorded entry #{stored['seq']} ({stored['kind']})", timeout=4)
+        for w in warnings:
+            self.notify(w, severity="warning", timeout=12)
+
+    # --- screens the main view opens ---------------------------------------------------------------------
+    def open_form(self, kind: str, arg: Any = None) -> None:
+        if self.snap is None:
+            return
+        if kind == "withdraw" and not self.snap.resolved.pending:
+            self.notify("no pending plans to withdraw", severity="warning")
+            return
+        self.push_screen(CorrectForm(arg) if kind == "correct" else FORMS[kind]())
+
+    def open_check(self, plan: int | None = None) -> None:
+        if self.snap is not None:
+            self.push_screen(CheckDialog(plan))
+
+    def open_trend(self) -> None:
+        if self.snap is not None:
+            from .screens.trend import TrendScreen  # noqa: PLC0415 - plotext loads when first asked for
+            self.push_screen(TrendScreen())
+
+    def open_alerts(self) -> None:
+        if self.snap is not None:
+            chain = ("intact" if self.live.verified else "being checked") if self.snap.integrity is None \
+                else f"BROKEN: {self.snap.integrity}"
+            self.push_screen(AlertsDialog(chain, [w for w in self.snap.warnings if not w.startswith("INTEGRITY")]))
+
+    def open_detail(self, seq: int) -> None:
+        d = browse.detail(self.snap, self.ix, seq, self.live.record_of(seq))
+        self.push_screen(DetailDialog(d), callback=self._detail_done)
+
+    def _detail_done(self, result) -> None:
+        if result and result[0] == "correct":
+            self.open_form("correct", result[1])
+        elif result and result[0] == "check":
+            self.open_check(result[1])
+
+    def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
+        yield from super().get_system_commands(screen)
+        if self.main is None:
+            return
+        for a in actions.ACTIONS:
+            yield SystemCommand(f"{a.title}  ({a.key_display or a.key})", a.help, getattr(self.main, f"action_{a.name}"))
+
+
+def make_app(path: str) -> LedgerConsole:
+    """The console on ``path`` (tests build it here and drive it with ``run_test``)."""
+    return LedgerConsole(path)
+
+
+def run_console(args) -> int:
+    path = resolve_path(getattr(args, "ledger", None))
+    app = make_app(path)
+    app.run()
+    return int(app.return_code or 0)

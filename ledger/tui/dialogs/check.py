@@ -1,0 +1,111 @@
+"""Manoeuvre check: engine and delta-v, or a pending plan; the answer updates as you type. Writes nothing."""
+from __future__ import annotations
+
+from typing import Any
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Input, Label, Select, Static
+
+from ...errors import LedgerError
+from ...services import browse
+from ...services.views import CAUTION
+from . import fields
+from .entries import engine_options, plan_options
+
+
+def verdict_text(res: dict[str, Any]) -> Text:
+    ok = res["verdict"] == "feasible"
+    out = Text()
+    out.append(" ✓ FEASIBLE " if ok else " ✗ NOT FEASIBLE ", style="bold black on green3" if ok else "bold white on red3")
+    out.append(f"  {res['engine']} {res['dv_m_s']:,.3f} m/s\n", style="bold")
+    out.append(f"{res['reason']}\n\n")
+    out.append(f"propellant needed   {res['propellant_kg']:,.3f} kg\n")
+    for t, x in res["propellant_by_tank_kg"].items():
+        out.append(f"  from {t:<10}    {x:,.3f} kg\n")
+    out.append(f"dv free after       {res['dv_free_after_m_s']:,.2f} m/s ({res['engine']})\n")
+    out.append(f"tightest tank       {res['limiting_tank']} (least margin after reserves)\n")
+    out.append("margin after burn and reserves:\n")
+    for t, x in res["margin_after_reserves_kg"].items():
+        out.append(f"  {t:<10} {x:>12,.3f} kg\n", style="" if x >= 0 else "bold red")
+    n = len(res["commitments"])
+    out.append(f"flown first: {n} pending plan{'s' if n != 1 else ''}" +
+               (": " + ", ".join(f"{c['engine']} {c['dv_m_s']:g} m/s" for c in res["commitments"]) if n else ""),
+               style="grey70")
+    return out
+
+
+class CheckDialog(ModalScreen):
+    """Pick a pending plan, or give engine and delta-v; see propellant per tank, dv free after, verdict."""
+
+    BINDINGS = [Binding("escape", "close", "Close")]
+
+    def __init__(self, plan: int | None = None) -> None:
+        super().__init__(classes="form-dialog")
+        self.start_plan = plan
+        self.result: dict[str, Any] | None = None
+
+    def compose(self) -> ComposeResult:
+        snap = self.app.snap
+        with Vertical(id="form"):
+            yield Static("◎ Check a manoeuvre  (nothing is recorded)", id="form-title")
+            with Horizontal(classes="field-row"):
+                yield Label("pending plan", classes="field-label")
+                yield Select(plan_options(snap), id="c-plan", prompt="(none: use engine and delta-v)",
+                             value=self.start_plan if self.start_plan else Select.NULL, compact=True)
+            with Horizontal(classes="field-row"):
+                yield Label("engine", classes="field-label")
+                yield Select(engine_options(snap), id="c-engine", allow_blank=False,
+                             value=snap.craft.engine_ids[0], compact=True)
+            with Horizontal(classes="field-row"):
+                yield Label("delta-v", classes="field-label")
+                yield Input(placeholder="e.g. 12 m/s", id="c-dv", compact=True)
+            yield Static("", id="c-msg", classes="field-msg")
+            yield Static("Give a delta-v, or pick a pending plan.", id="check-result")
+            yield Static(CAUTION, id="form-caution")
+            yield Static("esc close", id="form-keys")
+
+    def on_mount(self) -> None:
+        self.query_one("#c-dv" if not self.start_plan else "#c-plan").focus()
+        self.recompute()
+
+    def on_input_changed(self, event: Input.Changed) -> None:
+        self.recompute()
+
+    def on_select_changed(self, event: Select.Changed) -> None:
+        self.recompute()
+
+    def on_input_submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.recompute()
+
+    def recompute(self) -> None:
+        """Run the check service on what is in the fields and show the answer (or why not)."""
+        snap = self.app.snap
+        plan = self.query_one("#c-plan", Select).value
+        msg_box = self.query_one("#c-msg", Static)
+        out = self.query_one("#check-result", Static)
+        try:
+            if plan not in (Select.NULL, Select.BLANK, None):
+                self.result = browse.check_plan(snap, int(plan))
+                msg_box.update("")
+            else:
+                dv, msg = fields.amount(self.query_one("#c-dv", Input).value, ("dv",))
+                msg_box.update(f"✗ {msg}" if msg and self.query_one("#c-dv", Input).value.strip() else "")
+                msg_box.set_class(bool(msg and self.query_one("#c-dv", Input).value.strip()), "shown")
+                if msg:
+                    self.result = None
+                    out.update("Give a delta-v, or pick a pending plan.")
+                    return
+                self.result = browse.check(snap, self.query_one("#c-engine", Select).value, dv[1])
+        except LedgerError as exc:
+            self.result = None
+            out.update(f"✗ {exc}")
+            return
+        out.update(verdict_text(self.result))
+
+    def action_close(self) -> None:
+        self.dismiss(self.result)

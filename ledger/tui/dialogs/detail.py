@@ -1,0 +1,114 @@
+"""One entry in full: every field, who and when it was logged, what it drew, its place in the chain."""
+from __future__ import annotations
+
+from typing import Any
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical, VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Static
+
+from ...services.views import CAUTION
+from .. import fmt
+
+UNITS = {"dv": "m/s", "duration": "s", "propellant": "kg", "delta": "kg"}
+
+
+def detail_text(d: dict[str, Any]) -> Text:
+    out = Text()
+
+    def line(label: str, value: Any, style: str = "") -> None:
+        if value is None or value == "" or value == []:
+            return
+        out.append(f"{label:<18}", style="grey70")
+        out.append(f"{value}\n", style=style)
+
+    out.append_text(fmt.kind_text(d["kind"], d.get("superseded", False)))
+    out.append("\n\n")
+    line("happened at", d.get("at"))
+    line("logged at", d.get("recorded"))
+    line("logged by", d.get("by"))
+    line("from host", d.get("host"))
+    line("program", d.get("program"))
+    for k, v in d.get("data", {}).items():
+        if k == "changes":
+            for ck, cv in v.items():
+                line(f"  sets {ck}", f"{cv} {UNITS.get(ck, '')}".strip())
+        else:
+            line(k, f"{v:,.6g} {UNITS[k]}" if k in UNITS and isinstance(v, (int, float)) else v)
+    line("status", d.get("state"))
+    line("superseded", "yes: a later correction replaces it" if d.get("superseded") else None, "bold red")
+    line("corrected by", ", ".join(f"#{c}" for c in d.get("corrected_by", [])) or None)
+    line("now counts as", d.get("now_counts_as"))
+    line("executed by", f"#{d['executed_by']}" if d.get("executed_by") else None)
+    line("executes plan", f"#{d['plan']}" if d.get("plan") else None)
+    if d.get("mass_after_kg") is not None:
+        out.append("\neffect in the replay\n", style="bold")
+        line("propellant", f"{d['propellant_kg']:,.4f} kg")
+        for t, x in (d.get("drawn_kg") or {}).items():
+            line(f"  drawn from {t}", f"{x:,.4f} kg")
+        line("delta-v", f"{d['dv_m_s']:,.4f} m/s" if d.get("dv_m_s") else None)
+        line("mass after", f"{d['mass_after_kg']:,.3f} kg")
+    line("note", d.get("note"))
+    if d.get("hash"):
+        out.append("\nchain\n", style="bold")
+        line("hash", d["hash"][:32] + "…")
+        line("previous", d.get("prev", "")[:32] + "…")
+    return out
+
+
+class DetailDialog(ModalScreen):
+    BINDINGS = [Binding("escape", "close", "Close"), Binding("enter", "close", "Close", show=False),
+                Binding("c", "correct", "Correct it"), Binding("k", "check", "Check it")]
+
+    def __init__(self, detail: dict[str, Any]) -> None:
+        super().__init__(classes="form-dialog")
+        self.detail = detail
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="form"):
+            yield Static(f"Entry #{self.detail['id']}", id="form-title")
+            with VerticalScroll(id="detail-body"):
+                yield Static(detail_text(self.detail), id="detail")
+            yield Static(CAUTION, id="form-caution")
+            yield Static("esc close · c correct" + (" · k check this plan" if self.detail["kind"] == "plan"
+                                                     and self.detail.get("state") == "pending" else ""),
+                         id="form-keys")
+
+    def action_close(self) -> None:
+        self.dismiss(None)
+
+    def action_correct(self) -> None:
+        self.dismiss(("correct", self.detail["id"]))
+
+    def action_check(self) -> None:
+        if self.detail["kind"] == "plan" and self.detail.get("state") == "pending":
+            self.dismiss(("check", self.detail["id"]))
+
+
+class AlertsDialog(ModalScreen):
+    """Every warning of the snapshot in full (the watch panel cuts them to one line on narrow screens)."""
+
+    BINDINGS = [Binding("escape", "close", "Close"), Binding("enter", "close", "Close", show=False),
+                Binding("a", "close", "Close", show=False)]
+
+    def __init__(self, chain: str, warnings: list[str]) -> None:
+        super().__init__(classes="form-dialog")
+        self.chain, self.warnings = chain, warnings
+
+    def compose(self) -> ComposeResult:
+        body = Text()
+        body.append(f"chain: {self.chain}\n\n", style="bold")
+        for w in self.warnings or ["no warnings"]:
+            body.append(("⚠ " if self.warnings else "✓ ") + w + "\n\n")
+        with Vertical(id="form"):
+            yield Static(f"Alerts ({len(self.warnings)})", id="form-title")
+            with VerticalScroll(id="detail-body"):
+                yield Static(body, id="alerts")
+            yield Static(CAUTION, id="form-caution")
+            yield Static("esc close", id="form-keys")
+
+    def action_close(self) -> None:
+        self.dismiss(None)

@@ -1,0 +1,91 @@
+"""Text for the console: kind labels with symbols (never colour alone), numbers, gauge bars, times."""
+from __future__ import annotations
+
+from datetime import datetime, timezone
+
+from rich.text import Text
+
+KIND_TAG = {
+    "burn": ("▲", "BURN"), "plan": ("◇", "PLAN"), "mass": ("±", "MASS"),
+    "use": ("•", "USE"), "withdraw": ("✕", "WDRW"), "correct": ("✎", "CORR"),
+}
+KIND_NAMES = {"burn": "executed burns", "plan": "plans", "mass": "mass changes", "use": "other uses",
+              "withdraw": "withdrawals", "correct": "corrections"}
+
+# Gauge cells: the glyph carries the meaning, colour only repeats it.
+FREE, RESERVE, RESIDUAL, EMPTY = "█", "▒", "░", "·"
+LEGEND = f"{FREE} free  {RESERVE} reserve  {RESIDUAL} residual  {EMPTY} used"
+GLYPH_STYLE = {FREE: "green3", RESERVE: "dark_orange", RESIDUAL: "grey62", EMPTY: "grey42"}
+
+
+def legend(compact: bool) -> str:
+    """Content markup for the gauge legend, each glyph in its bar colour."""
+    words = (("free", FREE), ("reserve", RESERVE), ("residual", RESIDUAL), ("used", EMPTY))
+    sep = " " if compact else "  "
+    gap = "" if compact else " "
+    return sep.join(f"[{GLYPH_STYLE[g]}]{g}[/]{gap}[$text]{w}[/]" for w, g in words)
+
+
+KIND_STYLE = {"burn": "bold bright_cyan", "plan": "bold yellow", "mass": "bold magenta", "use": "cyan",
+              "withdraw": "grey62", "correct": "bold bright_red"}
+
+
+def fit(text: Text, width: int) -> Text:
+    """Cut a line to ``width`` cells with an ellipsis (a panel never wraps a row into the next)."""
+    if text.cell_len <= width:
+        return text
+    out = text.copy()
+    out.truncate(max(1, width - 1))
+    out.append("…")
+    return out
+
+
+def kind_text(kind: str, superseded: bool = False) -> Text:
+    sym, label = KIND_TAG.get(kind, ("?", kind.upper()))
+    style = KIND_STYLE.get(kind, "")
+    return Text(f"{sym} {label}", style=style + (" strike dim" if superseded else ""))
+
+
+def kind_label(kind: str) -> str:
+    sym, label = KIND_TAG.get(kind, ("?", kind.upper()))
+    return f"{sym} {label}"
+
+
+def when(iso_text: str | None) -> str:
+    """'2026-05-04T13:20:00Z' -> '2026-05-04 13:20' (minutes are enough in a table)."""
+    if not iso_text:
+        return ""
+    return iso_text[:16].replace("T", " ")
+
+
+def when_t(t: float) -> str:
+    return datetime.fromtimestamp(t, tz=timezone.utc).strftime("%Y-%m-%d %H:%M")
+
+
+def kg(x: float | None, digits: int = 2) -> str:
+    return "" if x is None else f"{x:,.{digits}f}"
+
+
+def gauge(t: dict, width: int) -> Text:
+    """One tank as a bar over its load: residual, reserve share, free usable, then what is used."""
+    width = max(8, width)
+    load = max(t["load_kg"], 1e-12)
+    remaining = max(0.0, min(t["remaining_kg"], load))
+    residual = min(t["residual_kg"], remaining)
+    reserve = min(t["reserve_kg"], remaining - residual)
+    free = max(0.0, remaining - residual - reserve)
+
+    def cells(x: float) -> int:
+        return int(round(width * x / load))
+
+    n_res, n_rsv, n_free = cells(residual), cells(reserve), cells(free)
+    if residual > 0 and n_res == 0:
+        n_res = 1
+    if reserve > 0 and n_rsv == 0:
+        n_rsv = 1
+    n_free = min(n_free, width - n_res - n_rsv)
+    n_empty = max(0, width - n_res - n_rsv - n_free)
+    bar = Text()
+    for glyph, n in ((RESIDUAL, n_res), (RESERVE, n_rsv), (FREE, n_free), (EMPTY, n_empty)):
+        bar.append(glyph * n, style=GLYPH_STYLE[glyph])
+    return bar

@@ -170,8 +170,11 @@ class Ledger:
                 root = int(by_seq[root].data["entry"])
             current = snap.resolved.effective[root]
             if current.kind not in FIELDS_BY_KIND:
+                instead = {"approve": "a new approve or reject", "reject": "a new approve or reject",
+                           "gauge": "a new gauge reading (and re-baseline from it)",
+                           "rebaseline": "a new gauge reading and re-baseline", "handover": "a new handover"}
                 raise InputError(f"--entry: entry {seq} is a {current.kind} entry, which cannot be corrected;"
-                                 " record a new one instead")
+                                 f" record {instead.get(current.kind, 'a new entry')} instead")
             allowed = FIELDS_BY_KIND[current.kind]
             wrong = [k for k in changes if k not in allowed]
             if wrong:

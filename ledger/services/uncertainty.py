@@ -22,6 +22,7 @@ from .views import CAUTION, status
 DEFAULT_CONFIDENCE = 0.99
 DEFAULT_SAMPLES = mc.DEFAULT_SAMPLES
 DEFAULT_SEED = mc.DEFAULT_SEED
+MAX_SAMPLES = 10_000_000
 WORKERS = min(2, os.cpu_count() or 1)
 """Threads the Monte Carlo's chunks are shared between (the answer does not depend on it)."""
 STALE_DV_ABS_M_S = 0.1
@@ -36,6 +37,8 @@ def validate(confidence: float, samples: int) -> None:
         raise InputError(f"--confidence: expected a probability strictly between 0 and 1 such as 0.99, got {confidence!r}")
     if samples < 1:
         raise InputError(f"--samples: expected a positive number of samples, got {samples}")
+    if samples > MAX_SAMPLES:
+        raise InputError(f"--samples: at most {MAX_SAMPLES:,} samples (memory grows with them), got {samples:,}")
     if (1.0 - confidence) * samples < 1.0:
         need = math.ceil(1.0 / (1.0 - confidence))
         raise InputError(f"--confidence {confidence:g} needs at least {need} samples for a low bound (--samples)")
@@ -136,6 +139,16 @@ def confidence_status(snapshot: Snapshot, confidence: float = DEFAULT_CONFIDENCE
     Pure computation on a snapshot (no I/O), safe to run in a worker thread; ``progress(done, total)``
     is called after each chunk of samples."""
     validate(confidence, samples)
+    if snapshot.path and snapshot.head[1] and snapshot.integrity is None:
+        from .confcache import cached  # noqa: PLC0415
+
+        key = {"head": list(snapshot.head), "confidence": confidence, "samples": samples, "seed": seed}
+        return cached(snapshot.path, key, lambda: _confidence_status(snapshot, confidence, samples, seed, progress))
+    return _confidence_status(snapshot, confidence, samples, seed, progress)
+
+
+def _confidence_status(snapshot: Snapshot, confidence: float, samples: int, seed: int,
+                       progress: mc.Progress | None) -> dict[str, Any]:
     craft = snapshot.craft
     s = run(snapshot, samples, seed, progress)
     usable, avail, free = sampled.capability_samples(craft, s)

@@ -33,41 +33,38 @@ class Steps:
     tank: np.ndarray | None = None  # int32: the re-baselined tank for REBASE steps, -1 otherwise
 
 
+def _step_of(kind: str, d, index, tanks) -> tuple[int, int, float, float, int]:
+    """(step kind, engine, amount, seconds of firing, tank) of one event; amounts in SI."""
+    if kind == MASS:
+        return STEP_MASS, -1, d["delta"], 0.0, -1
+    if kind == REBASELINE:
+        return STEP_REBASE, -1, d["remaining_kg"], 0.0, tanks[d["tank"]]
+    e = index[d["engine"]]
+    if kind == BURN and d.get("dv") is not None:
+        return STEP_SCALE, e, d["dv"], 0.0, -1
+    dur = d.get("duration")
+    if dur is not None:
+        return STEP_DRAW, e, 0.0, dur, -1
+    return STEP_DRAW, e, d["propellant"], 0.0, -1
+
+
 def steps_from_events(craft: Craft, events: Sequence[Entry]) -> Steps:
-    """Turn resolved events into step arrays; a duration becomes propellant through the mass flow."""
+    """Turn resolved events into step arrays; a duration becomes propellant through the mass flow.
+
+    One tuple per event, then whole-array conversions: element-wise writes into numpy arrays cost
+    several times more than building the tuples."""
     index = {e.id: i for i, e in enumerate(craft.engines)}
-    flows = craft.mass_flows()
-    n = len(events)
-    kind = np.empty(n, dtype=np.int8)
-    engine = np.full(n, -1, dtype=np.int32)
-    amount = np.empty(n, dtype=float)
-    is_burn = np.zeros(n, dtype=bool)
-    tank = np.full(n, -1, dtype=np.int32)
     tanks = {t.id: i for i, t in enumerate(craft.tanks)}
-    for i, ev in enumerate(events):
-        d = ev.data
-        if ev.kind == MASS:
-            kind[i] = STEP_MASS
-            amount[i] = d["delta"]
-            continue
-        if ev.kind == REBASELINE:
-            kind[i] = STEP_REBASE
-            tank[i] = tanks[d["tank"]]
-            amount[i] = d["remaining_kg"]
-            continue
-        e = index[d["engine"]]
-        engine[i] = e
-        if ev.kind == BURN:
-            is_burn[i] = True
-            dv = d.get("dv")
-            if dv is not None:
-                kind[i] = STEP_SCALE
-                amount[i] = dv
-                continue
-        dur = d.get("duration")
-        kind[i] = STEP_DRAW
-        amount[i] = flows[e] * dur if dur is not None else d["propellant"]
-    return Steps(kind, engine, amount, is_burn, tank)
+    rows = [_step_of(ev.kind, ev.data, index, tanks) for ev in events]
+    if not rows:
+        empty = np.empty(0)
+        return Steps(np.empty(0, np.int8), np.empty(0, np.int32), empty, np.empty(0, bool), np.empty(0, np.int32))
+    kind, engine, amount, seconds, tank = (np.array(col) for col in zip(*rows))
+    kind = kind.astype(np.int8)
+    engine = engine.astype(np.int32)
+    amount = amount.astype(float) + seconds.astype(float) * np.append(craft.mass_flows(), 0.0)[engine]
+    is_burn = np.fromiter((ev.kind == BURN for ev in events), dtype=bool, count=len(events))
+    return Steps(kind, engine, amount, is_burn, tank.astype(np.int32))
 
 
 @dataclass(frozen=True)

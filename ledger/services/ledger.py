@@ -96,6 +96,39 @@ def snapshot_from(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[
     return Snapshot(path, craft, meta, entries, resolved, rep, state, engines, integrity, tuple(warnings), head)
 
 
+def _verified(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]]) -> Break | None:
+    """The chain check, skipped when these exact file bytes (by SHA-256) verified before.
+
+    Recomputing every entry's hash is most of a large ledger's read time; hashing the file's bytes once
+    costs a tenth of it. Any change to the file changes its digest and brings the full check back;
+    ``propledger verify`` always does the full check.
+    """
+    from ..store import durable  # noqa: PLC0415
+
+    digest = durable.content_digest(path)
+    mark = path + VERIFIED_SUFFIX
+    if digest:
+        try:
+            with open(mark, encoding="ascii") as fh:
+                if fh.read().strip() == digest:
+                    return None
+        except (OSError, UnicodeDecodeError):
+            pass
+    brk = verify_chain(meta, records)
+    if brk is None and digest:
+        try:
+            fd = os.open(mark + ".tmp", os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
+            with os.fdopen(fd, "w", encoding="ascii") as fh:
+                fh.write(digest + "\n")
+            os.replace(mark + ".tmp", mark)
+        except OSError:
+            pass  # a read-only folder: the full check runs every time
+    return brk
+
+
+VERIFIED_SUFFIX = ".verified"
+
+
 class Ledger:
     """A ledger file with its use cases. Every call reads the file afresh (another process may write)."""
 
@@ -108,7 +141,7 @@ class Ledger:
         meta = doc["meta"]["1"]
         records = ordered(doc)
         try:
-            snap = snapshot_from(self.path, meta, records, verify_chain(meta, records))
+            snap = snapshot_from(self.path, meta, records, _verified(self.path, meta, records))
         except (KeyError, TypeError, ValueError, AttributeError, IndexError, ZeroDivisionError) as exc:
             raise StoreError(f"{self.path}: ledger contents malformed ({type(exc).__name__}: {exc})") from None
         if self.file.notices:

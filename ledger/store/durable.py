@@ -10,6 +10,7 @@ file's (device, inode, size, mtime, ctime) are unchanged, because every TinyDB o
 """
 from __future__ import annotations
 
+import hashlib
 import os
 import re
 import secrets
@@ -21,7 +22,8 @@ from tinydb.storages import Storage
 
 from ..errors import StoreError
 
-_CACHE: dict[str, tuple[tuple[int, ...], dict[str, Any]]] = {}
+_CACHE: dict[str, tuple[tuple[int, ...], dict[str, Any], str]] = {}
+"""path -> (inode, size, mtime key; parsed document; SHA-256 of the file's bytes)."""
 TMP_SUFFIX = ".propledger-tmp"
 
 
@@ -148,8 +150,17 @@ def read_document(path: str) -> dict[str, Any]:
     except OSError as exc:
         raise StoreError(f"{path}: cannot read it ({_reason(exc)})") from None
     data = decode(raw, path)
-    _CACHE[path] = (_key(st), data)
+    _CACHE[path] = (_key(st), data, hashlib.sha256(raw).hexdigest())
     return dict(data)
+
+
+def content_digest(path: str) -> str | None:
+    """SHA-256 of the bytes last read or written at ``path``, if the file has not changed since."""
+    hit = _CACHE.get(path)
+    try:
+        return hit[2] if hit and hit[0] == _key(os.stat(path)) else None
+    except OSError:
+        return None
 
 
 # --- writing -----------------------------------------------------------------------------------
@@ -210,8 +221,9 @@ def _keep_previous(path: str, folder: str) -> str | None:
 
 
 def write_document(path: str, data: dict[str, Any], *, exclusive: bool = False) -> None:
-    write_bytes(path, encode(data), exclusive=exclusive)
-    _CACHE[path] = (_key(os.stat(path)), data)
+    payload = encode(data)
+    write_bytes(path, payload, exclusive=exclusive)
+    _CACHE[path] = (_key(os.stat(path)), data, hashlib.sha256(payload).hexdigest())
 
 
 class DurableStorage(Storage):

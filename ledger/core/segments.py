@@ -6,6 +6,10 @@ exp(-dv1/ve)·exp(-dv2/ve) = exp(-(dv1+dv2)/ve). Independent Gaussian errors of 
 Gaussian with the variances added. A ledger of thousands of short firings between burns becomes a few
 segments per burn, and the Monte Carlo's cost follows the segments, not the entries. ``prepare`` turns
 the segments into the index arrays and constants every chunk of samples shares.
+
+A re-baseline is not an affine step (it sets a tank to a drawn value whatever the sample held), so
+``parts`` first cuts the ledger at re-baselines; each run between them is compressed on its own and the
+sampler carries every sample's mass and tanks from one run to the next.
 """
 from __future__ import annotations
 
@@ -15,7 +19,7 @@ from typing import Sequence
 import numpy as np
 
 from .craft import Craft
-from .entries import BURN, MASS, Entry
+from .entries import BURN, MASS, REBASELINE, Entry
 from .sigmas import entry_sigma
 
 
@@ -40,7 +44,9 @@ class Segments:
 
 
 def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
-    """Compress resolved events (replay order) into segments; sigmas default through ``core.sigmas``."""
+    """Compress resolved events (replay order) into segments; sigmas default through ``core.sigmas``.
+
+    Re-baselines are not compressible: cut the ledger with ``parts`` first."""
     n, n_eng = len(events), len(craft.engines)
     index = {e.id: i for i, e in enumerate(craft.engines)}
     code = np.empty(n, dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass change
@@ -49,6 +55,8 @@ def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
     var = np.empty(n)
     for i, ev in enumerate(events):
         d = ev.data
+        if ev.kind == REBASELINE:
+            raise ValueError("segments: re-baselines cut the ledger into parts (segments.parts)")
         if ev.kind == MASS:
             field = "delta"
             code[i] = 3
@@ -81,6 +89,47 @@ def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
         propellant=per_engine(2, amount), propellant_var=per_engine(2, var),
         delta=total(code == 3, amount), delta_var=total(code == 3, var), entries=n,
     )
+
+
+@dataclass(frozen=True)
+class Rebase:
+    """A re-baseline: in every sample the tank takes an independent draw N(remaining_kg, sigma_kg)."""
+
+    tank: int
+    remaining_kg: float
+    sigma_kg: float
+
+
+@dataclass(frozen=True)
+class Parts:
+    """The ledger cut at re-baselines: ``runs[i]`` are the segments before ``rebases[i]``, the last run
+    follows the last re-baseline (so there is one run more than re-baselines; a run may be empty)."""
+
+    runs: tuple[Segments, ...]
+    rebases: tuple[Rebase, ...] = ()
+
+    def __len__(self) -> int:
+        """Segments sampled in all: the runs' segments and one per re-baseline."""
+        return sum(len(r) for r in self.runs) + len(self.rebases)
+
+    @property
+    def widest(self) -> int:
+        """Segments of the longest run: what one chunk's arrays hold at a time."""
+        return max(len(r) for r in self.runs)
+
+
+def parts(craft: Craft, events: Sequence[Entry]) -> Parts:
+    """Cut resolved events at re-baselines and compress each run; without re-baselines, one run."""
+    tanks = {t.id: i for i, t in enumerate(craft.tanks)}
+    runs, rebases, start = [], [], 0
+    for i, ev in enumerate(events):
+        if ev.kind == REBASELINE:
+            runs.append(segments(craft, events[start:i]))
+            d = ev.data
+            rebases.append(Rebase(tanks[d["tank"]], float(d["remaining_kg"]), float(d.get("sigma_kg") or 0.0)))
+            start = i + 1
+    runs.append(segments(craft, events[start:]))
+    return Parts(tuple(runs), tuple(rebases))
 
 
 @dataclass(frozen=True)

@@ -92,7 +92,8 @@ def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng
     went that the additive segments do not account for went through the one engine. Given the scaling,
     the errors enter linearly: the final mass gets kept_N·X (X = sum eta_k/A_k), the additive segments'
     total Y = sum eta_k, the draws G = -sum split_k z_k; (X, Y, G) is Gaussian with a covariance known per
-    sample, drawn directly (exact: conditioning on everything else), not one random number per segment.
+    sample, drawn directly (exact: conditioning on everything else), not one random number per segment:
+    (Y, G) from its constant covariance, then X given them.
     """
     n, m, nd = len(m0), p.split.shape[1], p.dur_engines.size
     drawn = p.drawn_const + flow * p.seconds
@@ -104,17 +105,20 @@ def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng
         acc = m0 + cols[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], cols[:, 1:1 + nd])
     final = kept[:, -1] * acc
     if p.b_sd.any():
-        cov = np.empty((n, m + 2, m + 2))
-        cov[:, 0, 0] = np.einsum("ij,ij,j->i", inv, inv, p.weights[:, 1 + nd])
-        cov[:, 0, 1] = cov[:, 1, 0] = cols[:, 1 + nd]
-        cov[:, 0, 2:] = -cols[:, 2 + nd:]
-        cov[:, 2:, 0] = cov[:, 0, 2:]
-        cov[:, 1:, 1:] = p.total_cov
-        lam, vec = np.linalg.eigh(cov)
-        v = np.einsum("nij,nj->ni", vec, np.sqrt(np.maximum(lam, 0.0)) * rng.standard_normal((n, m + 2)))
-        final = final + kept[:, -1] * v[:, 0]
-        total = total + v[:, 1]
-        drawn = drawn + v[:, 2:] + rng.standard_normal((n, m)) @ p.resid.T
+        # (Y, G) has the constant covariance total_cov: drawn with its fixed root. X given (Y, G) is
+        # Gaussian with mean c·S⁺·(Y, G) and variance var(X) - c·S⁺·c (conditioning a joint Gaussian;
+        # c = cov(X, (Y, G)) per sample), so no per-sample decomposition is needed.
+        z = rng.standard_normal((n, m + 2))
+        yg = z[:, 1:] @ p.total_root.T
+        c = np.empty((n, m + 1))
+        c[:, 0] = cols[:, 1 + nd]
+        c[:, 1:] = -cols[:, 2 + nd:]
+        k = c @ p.total_pinv
+        var_x = np.einsum("ij,ij,j->i", inv, inv, p.weights[:, 1 + nd]) - np.einsum("ij,ij->i", k, c)
+        x = np.einsum("ij,ij->i", k, yg) + np.sqrt(np.maximum(var_x, 0.0)) * z[:, 0]
+        final = final + kept[:, -1] * x
+        total = total + yg[:, 0]
+        drawn = drawn + yg[:, 1:] + rng.standard_normal((n, m)) @ p.resid.T
     if p.single is not None:
         drawn[:, p.single] += m0 + total - final
     return final, drawn

@@ -152,6 +152,8 @@ class Plan:
     onehot: np.ndarray        # (scaling segments, engines)
     single: int | None        # the engine of every scaling segment, when there is only one
     total_cov: np.ndarray     # covariance of (total mass error of all additive segments, their split)
+    total_root: np.ndarray    # R with R R' = total_cov (symmetric square root; total_cov may be singular)
+    total_pinv: np.ndarray    # pseudo-inverse of total_cov, for the final mass's error given the totals
     weights: np.ndarray       # (Ka, columns) summed against 1/A (montecarlo._one_engine): b_const, durations, errors
     dur_engines: np.ndarray   # engines fired by duration (the columns after b_const in weights)
 
@@ -161,6 +163,16 @@ def _columns(index: np.ndarray):
     if index.size and index[-1] - index[0] == index.size - 1:
         return slice(int(index[0]), int(index[-1]) + 1)
     return index
+
+
+def _root_and_pinv(cov: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Square root and pseudo-inverse of a covariance that may be singular (e.g. one engine's draw is the
+    whole additive error): eigenvalues below 1e-12 of the largest count as 0."""
+    lam, vec = np.linalg.eigh(cov)
+    keep = lam > 1e-12 * max(float(lam.max(initial=0.0)), 0.0)
+    lam = np.where(keep, lam, 0.0)
+    inv = np.divide(1.0, lam, out=np.zeros_like(lam), where=keep)
+    return vec * np.sqrt(lam), (vec * inv) @ vec.T
 
 
 def prepare(craft: Craft, seg: Segments) -> Plan:
@@ -195,4 +207,4 @@ def prepare(craft: Craft, seg: Segments) -> Plan:
                  tuple((e, dur[:, e]) for e in range(n_eng) if (dur[:, e] != 0).any()),
                  prop.sum(axis=0), dur.sum(axis=0), b_sd, split, resid, onehot,
                  int(seg.engine[sc][0]) if sc.size and (seg.engine[sc] == seg.engine[sc][0]).all() else None,
-                 total_cov, weights, dur_engines)
+                 total_cov, *_root_and_pinv(total_cov), weights, dur_engines)

@@ -140,7 +140,7 @@ def _scaling(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
     return log_a, kept
 
 
-def _chunk(craft: Craft, plans: Sequence[Plan], rebases: Sequence[Rebase], dry, loads, isp, thrust,
+def _chunk(craft: Craft, plans: Sequence[Plan | None], rebases: Sequence[Rebase], dry, loads, isp, thrust,
            rng: np.random.Generator):
     """Final mass, remaining per tank and exhaust velocities for one chunk of n samples.
 

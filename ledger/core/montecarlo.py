@@ -9,8 +9,13 @@ stands for the flow's firing-to-firing repeatability); the sample's own flow sca
 The ledger is compressed first (``core.segments``), then samples run in chunks, each a (samples x
 segments) prefix scan sized to stay in the processor's cache, so memory stays bounded whatever the
 sample count. Normal draws are the largest cost, so they are kept to one per scaling segment and, for
-additive segments, one per segment (``_plan``) or, when a single engine flies the delta-v burns, none
-at all (``_one_engine``); both are exact in distribution, not approximations. ``montecarlo_loop.simulate_loop`` is the plain per-sample, per-entry reference.
+additive segments, one per segment (``_additive``) or, when a single engine flies the delta-v burns, none
+at all (``_one_engine``); both are exact in distribution, not approximations.
+
+Re-baselines cut the ledger into runs (``segments.parts``): each sample's mass and tanks are carried from
+one run to the next, and at a re-baseline the tank takes a fresh draw around the adopted value, the mass
+the difference. A ledger without re-baselines is one run.
+``montecarlo_loop.simulate_loop`` is the plain per-sample, per-entry reference.
 """
 from __future__ import annotations
 
@@ -22,7 +27,7 @@ import numpy as np
 from .craft import G0, Craft
 from .entries import Entry
 from .replay import scan_log
-from .segments import Plan, Segments, prepare, segments
+from .segments import Parts, Plan, Rebase, Segments, parts, prepare
 from .sigmas import craft_sigmas
 
 DEFAULT_SEED = 24301
@@ -87,7 +92,8 @@ def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng
     went that the additive segments do not account for went through the one engine. Given the scaling,
     the errors enter linearly: the final mass gets kept_N·X (X = sum eta_k/A_k), the additive segments'
     total Y = sum eta_k, the draws G = -sum split_k z_k; (X, Y, G) is Gaussian with a covariance known per
-    sample, drawn directly (exact: conditioning on everything else), not one random number per segment.
+    sample, drawn directly (exact: conditioning on everything else), not one random number per segment:
+    (Y, G) from its constant covariance, then X given them.
     """
     n, m, nd = len(m0), p.split.shape[1], p.dur_engines.size
     drawn = p.drawn_const + flow * p.seconds
@@ -99,17 +105,20 @@ def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng
         acc = m0 + cols[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], cols[:, 1:1 + nd])
     final = kept[:, -1] * acc
     if p.b_sd.any():
-        cov = np.empty((n, m + 2, m + 2))
-        cov[:, 0, 0] = np.einsum("ij,ij,j->i", inv, inv, p.weights[:, 1 + nd])
-        cov[:, 0, 1] = cov[:, 1, 0] = cols[:, 1 + nd]
-        cov[:, 0, 2:] = -cols[:, 2 + nd:]
-        cov[:, 2:, 0] = cov[:, 0, 2:]
-        cov[:, 1:, 1:] = p.total_cov
-        lam, vec = np.linalg.eigh(cov)
-        v = np.einsum("nij,nj->ni", vec, np.sqrt(np.maximum(lam, 0.0)) * rng.standard_normal((n, m + 2)))
-        final = final + kept[:, -1] * v[:, 0]
-        total = total + v[:, 1]
-        drawn = drawn + v[:, 2:] + rng.standard_normal((n, m)) @ p.resid.T
+        # (Y, G) has the constant covariance total_cov: drawn with its fixed root. X given (Y, G) is
+        # Gaussian with mean c·S⁺·(Y, G) and variance var(X) - c·S⁺·c (conditioning a joint Gaussian;
+        # c = cov(X, (Y, G)) per sample), so no per-sample decomposition is needed.
+        z = rng.standard_normal((n, m + 2))
+        yg = z[:, 1:] @ p.total_root.T
+        c = np.empty((n, m + 1))
+        c[:, 0] = cols[:, 1 + nd]
+        c[:, 1:] = -cols[:, 2 + nd:]
+        k = c @ p.total_pinv
+        var_x = np.einsum("ij,ij,j->i", inv, inv, p.weights[:, 1 + nd]) - np.einsum("ij,ij->i", k, c)
+        x = np.einsum("ij,ij->i", k, yg) + np.sqrt(np.maximum(var_x, 0.0)) * z[:, 0]
+        final = final + kept[:, -1] * x
+        total = total + yg[:, 0]
+        drawn = drawn + yg[:, 1:] + rng.standard_normal((n, m)) @ p.resid.T
     if p.single is not None:
         drawn[:, p.single] += m0 + total - final
     return final, drawn
@@ -131,25 +140,48 @@ def _scaling(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
     return log_a, kept
 
 
-def _chunk(craft: Craft, p: Plan, dry, loads, isp, thrust, rng: np.random.Generator, dense: bool = False):
-    """Final mass and propellant per engine for one chunk of n samples.
+def _chunk(craft: Craft, plans: Sequence[Plan | None], rebases: Sequence[Rebase], dry, loads, isp, thrust,
+           rng: np.random.Generator):
+    """Final mass, remaining per tank and exhaust velocities for one chunk of n samples.
+
+    Each run between re-baselines starts from the mass and tanks the previous one left, per sample. At a
+    re-baseline the tank takes an independent draw N(adopted, sigma) and the mass changes by that draw
+    less what the sample's tank held (as ``replay.replay`` does with the nominal figures). No floor: the
+    adopted figure is bookkeeping, like the rest of the ledger.
+    """
+    ve = isp * G0 * np.cos(np.radians([e.cant_deg for e in craft.engines]))
+    flow = thrust / (isp * G0)
+    frac = craft.feed_fractions()
+    mass, remaining = dry + loads.sum(axis=1), loads.copy()
+    for i, p in enumerate(plans):
+        if p is not None:
+            mass, used = _run(p, mass, ve, flow, rng)
+            remaining -= used @ frac
+        if i < len(rebases):
+            r = rebases[i]
+            adopted = r.remaining_kg + r.sigma_kg * rng.standard_normal(len(mass))
+            mass = mass + (adopted - remaining[:, r.tank])
+            remaining[:, r.tank] = adopted
+    return mass, remaining, ve
+
+
+def _run(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.random.Generator,
+         dense: bool = False):
+    """Final mass and propellant per engine over one run of segments, from each sample's mass m0.
 
     kept[:, i] is the fraction of mass the scaling segments before i leave (A in replay.mass_scan) and
     acc[:, j] is m0 + sum of b/A over the first j additive segments, so the mass before a segment is
     kept·acc and a scaling segment burns (kept_i - kept_i+1)·acc. With one engine on the delta-v burns
     ``_one_engine`` needs neither acc nor a random number per additive segment.
     """
-    n, ks, ka = len(dry), p.sc.size, p.b_const.size
-    ve = isp * G0 * np.cos(np.radians([e.cant_deg for e in craft.engines]))
-    flow = thrust / (isp * G0)
-    m0 = dry + loads.sum(axis=1)
+    n, ks, ka = len(m0), p.sc.size, p.b_const.size
     log_a, kept = _scaling(p, ve, rng, n)
     with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
         if (ks == 0 or p.single is not None) and not dense:
             final, used = _one_engine(p, m0, flow, kept, rng)
             if np.all(np.isfinite(final)) and np.all(np.isfinite(used)):
-                return final, used, ve
-            return _chunk(craft, p, dry, loads, isp, thrust, rng, dense=True)
+                return final, used
+            return _run(p, m0, ve, flow, rng, dense=True)
         acc = np.empty((n, ka + 1))
         acc[:, 0] = m0
         b, drawn = None, np.zeros(flow.shape)
@@ -162,7 +194,7 @@ def _chunk(craft: Craft, p: Plan, dry, loads, isp, thrust, rng: np.random.Genera
     if not (np.all(np.isfinite(final)) and np.all(np.isfinite(burnt))):
         final, burned = _sequential(p, m0, log_a, b)
         burnt = burned @ p.onehot
-    return final, drawn + burnt, ve
+    return final, drawn + burnt
 
 
 def _burned(p: Plan, kept: np.ndarray, acc: np.ndarray) -> np.ndarray:
@@ -201,32 +233,32 @@ def chunk_size(n_segments: int, chunk: int = DEFAULT_CHUNK) -> int:
 
 
 def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED,
-             chunk: int = DEFAULT_CHUNK, progress: Progress | None = None, seg: Segments | None = None,
+             chunk: int = DEFAULT_CHUNK, progress: Progress | None = None, seg: Segments | Parts | None = None,
              workers: int = 1) -> Samples:
     """Sample the final state of the ledger ``samples`` times; ``progress(done, total)`` after each chunk.
 
-    The craft figures come from one random stream drawn up front and each chunk's entry errors from its
-    own child stream, so the answer depends on the seed and the chunk size, not on ``workers`` (threads
-    sharing the chunks: numpy releases the interpreter lock inside its array loops), and a sample keeps
-    its engine and load errors when the ledger grows (checks before and after an entry compare like
-    with like).
+    The craft figures come from one random stream drawn up front and each chunk's entry errors (and
+    re-baseline draws) from its own child stream, so the answer depends on the seed and the chunk size,
+    not on ``workers`` (threads sharing the chunks: numpy releases the interpreter lock inside its array
+    loops), and a sample keeps its engine and load errors when the ledger grows (checks before and after
+    an entry compare like with like). ``seg`` is the ledger already cut and compressed (``parts``).
     """
     if samples < 1:
         raise ValueError("samples must be at least 1")
-    seg = segments(craft, events) if seg is None else seg
-    plan = prepare(craft, seg)
+    cut = parts(craft, events) if seg is None else seg if isinstance(seg, Parts) else Parts((seg,))
+    plans = [prepare(craft, run) if len(run) else None for run in cut.runs]
     craft_seq, entry_seq = np.random.SeedSequence(seed).spawn(2)
     dry, loads, isp, thrust = _globals(craft, generator(craft_seq), samples)
-    size = chunk_size(len(seg), chunk)
+    size = chunk_size(cut.widest, chunk)
     bounds = [(lo, min(samples, lo + size)) for lo in range(0, samples, size)]
     streams = entry_seq.spawn(len(bounds))
     mass = np.empty(samples)
-    used = np.empty((samples, len(craft.engines)))
+    remaining = np.empty((samples, len(craft.tanks)))
     ve = np.empty((samples, len(craft.engines)))
 
     def one(i: int):
         lo, hi = bounds[i]
-        return _chunk(craft, plan, dry[lo:hi], loads[lo:hi], isp[lo:hi], thrust[lo:hi],
+        return _chunk(craft, plans, cut.rebases, dry[lo:hi], loads[lo:hi], isp[lo:hi], thrust[lo:hi],
                       generator(streams[i]))
 
     if workers > 1 and len(bounds) > 1:
@@ -234,15 +266,14 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
 
         with ThreadPoolExecutor(max_workers=workers) as pool:
             results = pool.map(one, range(len(bounds)))
-            _collect(results, bounds, mass, used, ve, samples, progress)
+            _collect(results, bounds, mass, remaining, ve, samples, progress)
     else:
-        _collect(map(one, range(len(bounds))), bounds, mass, used, ve, samples, progress)
-    remaining = loads - used @ craft.feed_fractions()
-    return Samples(mass, remaining, ve, seed, len(seg))
+        _collect(map(one, range(len(bounds))), bounds, mass, remaining, ve, samples, progress)
+    return Samples(mass, remaining, ve, seed, len(cut))
 
 
-def _collect(results, bounds, mass, used, ve, samples, progress) -> None:
-    for (lo, hi), (m, u, v) in zip(bounds, results):
-        mass[lo:hi], used[lo:hi], ve[lo:hi] = m, u, v
+def _collect(results, bounds, mass, remaining, ve, samples, progress) -> None:
+    for (lo, hi), (m, r, v) in zip(bounds, results):
+        mass[lo:hi], remaining[lo:hi], ve[lo:hi] = m, r, v
         if progress is not None:
             progress(hi, samples)

@@ -11,7 +11,7 @@ from typing import Sequence
 import numpy as np
 
 from .craft import G0, Craft
-from .entries import BURN, MASS, Entry
+from .entries import BURN, MASS, REBASELINE, Entry
 from .montecarlo import DEFAULT_SEED, Samples, _globals, generator
 from .sigmas import entry_sigma
 
@@ -22,6 +22,7 @@ def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int
     dry, loads, isp, thrust = _globals(craft, rng, samples)
     frac = craft.feed_fractions()
     index = {e.id: i for i, e in enumerate(craft.engines)}
+    tanks = {t.id: i for i, t in enumerate(craft.tanks)}
     cos = np.cos(np.radians([e.cant_deg for e in craft.engines]))
     nominal_flow = craft.mass_flows()
     mass = np.empty(samples)
@@ -33,6 +34,12 @@ def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int
             d = ev.data
             if ev.kind == MASS:
                 m += d["delta"] + entry_sigma(d, "delta") * rng.standard_normal()
+                continue
+            if ev.kind == REBASELINE:  # the tank takes a fresh draw, the mass the difference
+                t = tanks[d["tank"]]
+                adopted = d["remaining_kg"] + (d.get("sigma_kg") or 0.0) * rng.standard_normal()
+                m += adopted - rem[t]
+                rem[t] = adopted
                 continue
             e = index[d["engine"]]
             if ev.kind == BURN and d.get("dv") is not None:

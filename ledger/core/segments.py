@@ -6,6 +6,10 @@ exp(-dv1/ve)·exp(-dv2/ve) = exp(-(dv1+dv2)/ve). Independent Gaussian errors of 
 Gaussian with the variances added. A ledger of thousands of short firings between burns becomes a few
 segments per burn, and the Monte Carlo's cost follows the segments, not the entries. ``prepare`` turns
 the segments into the index arrays and constants every chunk of samples shares.
+
+A re-baseline is not an affine step (it sets a tank to a drawn value whatever the sample held), so
+``parts`` first cuts the ledger at re-baselines; each run between them is compressed on its own and the
+sampler carries every sample's mass and tanks from one run to the next.
 """
 from __future__ import annotations
 
@@ -15,7 +19,7 @@ from typing import Sequence
 import numpy as np
 
 from .craft import Craft
-from .entries import BURN, MASS, Entry
+from .entries import BURN, MASS, REBASELINE, Entry
 from .sigmas import entry_sigma
 
 
@@ -40,7 +44,9 @@ class Segments:
 
 
 def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
-    """Compress resolved events (replay order) into segments; sigmas default through ``core.sigmas``."""
+    """Compress resolved events (replay order) into segments; sigmas default through ``core.sigmas``.
+
+    Re-baselines are not compressible: cut the ledger with ``parts`` first."""
     n, n_eng = len(events), len(craft.engines)
     index = {e.id: i for i, e in enumerate(craft.engines)}
     code = np.empty(n, dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass change
@@ -49,6 +55,8 @@ def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
     var = np.empty(n)
     for i, ev in enumerate(events):
         d = ev.data
+        if ev.kind == REBASELINE:
+            raise ValueError("segments: re-baselines cut the ledger into parts (segments.parts)")
         if ev.kind == MASS:
             field = "delta"
             code[i] = 3
@@ -84,6 +92,47 @@ def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
 
 
 @dataclass(frozen=True)
+class Rebase:
+    """A re-baseline: in every sample the tank takes an independent draw N(remaining_kg, sigma_kg)."""
+
+    tank: int
+    remaining_kg: float
+    sigma_kg: float
+
+
+@dataclass(frozen=True)
+class Parts:
+    """The ledger cut at re-baselines: ``runs[i]`` are the segments before ``rebases[i]``, the last run
+    follows the last re-baseline (so there is one run more than re-baselines; a run may be empty)."""
+
+    runs: tuple[Segments, ...]
+    rebases: tuple[Rebase, ...] = ()
+
+    def __len__(self) -> int:
+        """Segments sampled in all: the runs' segments and one per re-baseline."""
+        return sum(len(r) for r in self.runs) + len(self.rebases)
+
+    @property
+    def widest(self) -> int:
+        """Segments of the longest run: what one chunk's arrays hold at a time."""
+        return max(len(r) for r in self.runs)
+
+
+def parts(craft: Craft, events: Sequence[Entry]) -> Parts:
+    """Cut resolved events at re-baselines and compress each run; without re-baselines, one run."""
+    tanks = {t.id: i for i, t in enumerate(craft.tanks)}
+    runs, rebases, start = [], [], 0
+    for i, ev in enumerate(events):
+        if ev.kind == REBASELINE:
+            runs.append(segments(craft, events[start:i]))
+            d = ev.data
+            rebases.append(Rebase(tanks[d["tank"]], float(d["remaining_kg"]), float(d.get("sigma_kg") or 0.0)))
+            start = i + 1
+    runs.append(segments(craft, events[start:]))
+    return Parts(tuple(runs), tuple(rebases))
+
+
+@dataclass(frozen=True)
 class Plan:
     """Index arrays and constants of one simulation, prepared once and shared by every chunk."""
 
@@ -103,6 +152,8 @@ class Plan:
     onehot: np.ndarray        # (scaling segments, engines)
     single: int | None        # the engine of every scaling segment, when there is only one
     total_cov: np.ndarray     # covariance of (total mass error of all additive segments, their split)
+    total_root: np.ndarray    # R with R R' = total_cov (symmetric square root; total_cov may be singular)
+    total_pinv: np.ndarray    # pseudo-inverse of total_cov, for the final mass's error given the totals
     weights: np.ndarray       # (Ka, columns) summed against 1/A (montecarlo._one_engine): b_const, durations, errors
     dur_engines: np.ndarray   # engines fired by duration (the columns after b_const in weights)
 
@@ -112,6 +163,16 @@ def _columns(index: np.ndarray):
     if index.size and index[-1] - index[0] == index.size - 1:
         return slice(int(index[0]), int(index[-1]) + 1)
     return index
+
+
+def _root_and_pinv(cov: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Square root and pseudo-inverse of a covariance that may be singular (e.g. one engine's draw is the
+    whole additive error): eigenvalues below 1e-12 of the largest count as 0."""
+    lam, vec = np.linalg.eigh(cov)
+    keep = lam > 1e-12 * max(float(lam.max(initial=0.0)), 0.0)
+    lam = np.where(keep, lam, 0.0)
+    inv = np.divide(1.0, lam, out=np.zeros_like(lam), where=keep)
+    return vec * np.sqrt(lam), (vec * inv) @ vec.T
 
 
 def prepare(craft: Craft, seg: Segments) -> Plan:
@@ -146,4 +207,4 @@ def prepare(craft: Craft, seg: Segments) -> Plan:
                  tuple((e, dur[:, e]) for e in range(n_eng) if (dur[:, e] != 0).any()),
                  prop.sum(axis=0), dur.sum(axis=0), b_sd, split, resid, onehot,
                  int(seg.engine[sc][0]) if sc.size and (seg.engine[sc] == seg.engine[sc][0]).all() else None,
-                 total_cov, weights, dur_engines)
+                 total_cov, *_root_and_pinv(total_cov), weights, dur_engines)

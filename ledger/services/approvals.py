@@ -32,7 +32,7 @@ def decide(ledger: Ledger, kind: str, plan: Any, by: str | None, note: str | Non
         raise InputError(f"{kind}: --by is required (the name of the person who decides)")
     if kind == REJECT and not clean_text(note, "--note"):
         raise InputError("reject: --note is required (why the plan is rejected)")
-    uncertainty.validate(confidence, samples)
+    uncertainty.validate(confidence, samples, seed)
     snap = ledger.snapshot()
     seq = plan_ref(snap.resolved, plan, "an approval" if kind == APPROVE else "a rejection")
     s = uncertainty.run(snap, samples, seed, progress)

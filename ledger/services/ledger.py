@@ -10,7 +10,7 @@ import numpy as np
 from ..core import capability as cap
 from ..core.codec import craft_from_dict, craft_to_dict
 from ..core.craft import Craft
-from ..core.entries import BURN, CORRECT, HANDOVER, MASS, PLAN, USE, WITHDRAW, Entry, Resolved, apply_correction, resolve
+from ..core.entries import BURN, CORRECT, DECISIONS, HANDOVER, MASS, PLAN, USE, WITHDRAW, Entry, Resolved, apply_correction, resolve
 from ..core.replay import Replay, replay
 from ..errors import InputError, StoreError
 from ..store.chain import Break, verify_chain
@@ -202,6 +202,9 @@ class Ledger:
             while by_seq[root].kind == CORRECT:
                 root = int(by_seq[root].data["entry"])
             current = snap.resolved.effective[root]
+            if current.kind in DECISIONS:
+                raise InputError(f"--entry: entry {seq} is a {current.kind} decision, which cannot be corrected;"
+                                 " record a new approve or reject instead")
             if current.kind not in FIELDS_BY_KIND:
                 instead = {"approve": "a new approve or reject", "reject": "a new approve or reject",
                            "gauge": "a new gauge reading (and re-baseline from it)",

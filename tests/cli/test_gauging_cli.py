@@ -156,3 +156,30 @@ def test_reading_status_and_log_never_load_coolprop(gledger):
             "sys.exit(3 if 'CoolProp' in sys.modules else 0)\n")
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT)
     assert proc.returncode == 0, proc.stderr
+
+
+def test_status_and_check_after_a_rebaseline_carry_the_adopted_sigma(gledger):
+    # Nothing draws from hz after the re-baseline, so in every sample hz holds an independent draw
+    # N(adopted, sigma): its 99 % usable low bound (no residual) is adopted + z sigma, z = Phi^-1(0.01)
+    # (scipy.stats.norm.ppf), within 4 standard errors of an empirical quantile of n samples:
+    # sqrt(0.01 * 0.99 / n) / phi(z) * sigma.
+    from scipy.stats import norm
+
+    gid = json.loads(gauge(gledger, "--json").stdout)["id"]
+    out = json.loads(run("--ledger", gledger, "rebaseline", "--tank", "hz", "--gauge", str(gid), "--by", "P. Ilves",
+                         "--json", check=True).stdout)
+    run("--ledger", gledger, "use", "--engine", "hall", "--propellant", "0.5 kg", "--at", "2026-03-03T00:00Z",
+        check=True)
+    n = 20000
+    status = json.loads(run("--ledger", gledger, "status", "--json", "--samples", str(n), check=True).stdout)
+    z = norm.ppf(0.01)
+    se = (0.01 * 0.99 / n) ** 0.5 / norm.pdf(z) * out["sigma_kg"]
+    assert status["tanks"]["hz"]["usable_low_kg"] == pytest.approx(out["remaining_kg"] + z * out["sigma_kg"], abs=4 * se)
+    assert status["uncertainty"]["samples"] == n and status["uncertainty"]["segments"] >= 3
+    proc = run("--ledger", gledger, "check", "--engine", "thr", "--dv", "5 m/s", "--json")
+    assert proc.returncode == 0, proc.stderr
+    chk = json.loads(proc.stdout)
+    assert chk["verdict"] == "feasible" and chk["probability"] == 1.0
+    assert chk["dv_free_after_low_m_s"] < chk["dv_free_after_m_s"]
+    text = run("--ledger", gledger, "check", "--engine", "thr", "--dv", "5 m/s")
+    assert text.returncode == 0 and "FEASIBLE" in text.stdout

@@ -99,7 +99,8 @@ def test_status_gives_low_bounds_at_the_confidence(led, capsys):
     assert a["uncertainty"]["reserves_probability"] == 1.0
     code, out, _ = run(capsys, "--ledger", led, "status", "--samples", "2000")
     assert code == 0 and "low 99%" in out
-    for bad in (("--confidence", "1.5"), ("--confidence", "0.9999", "--samples", "1000"), ("--samples", "0")):
+    for bad in (("--confidence", "1.5"), ("--confidence", "0.9999", "--samples", "1000"), ("--samples", "0"),
+                ("--samples", "99999999999999999999"), ("--seed", "-1")):
         code, _, err = run(capsys, "--ledger", led, "status", *bad)
         assert code == 2 and err.count("\n") == 1
 

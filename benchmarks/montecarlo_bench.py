@@ -24,40 +24,18 @@ import tracemalloc
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 sys.path.insert(0, ROOT)
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
 import numpy as np  # noqa: E402
 
 from ledger.core import montecarlo as mc  # noqa: E402
 from ledger.core import sampled  # noqa: E402
-from ledger.core.craft import Craft, Engine, Reserve, Tank  # noqa: E402
 from ledger.core.montecarlo_loop import simulate_loop  # noqa: E402
 from ledger.core.entries import Entry  # noqa: E402
 from ledger.core.replay import replay  # noqa: E402
 from ledger.core.segments import parts, segments  # noqa: E402
 
-T0 = 1_700_000_000.0
-CRAFT = Craft("Bench craft", 2000.0,
-              (Tank("ox", "MON-3", 1400.0, 10.0), Tank("fuel", "MMH", 850.0, 8.0), Tank("gn2", "nitrogen", 30.0, 1.0)),
-              (Engine("main", 318.0, 440.0, {"ox": 1.65, "fuel": 1.0}),
-               Engine("thr", 290.0, 20.0, {"ox": 1.65, "fuel": 1.0}, cant_deg=15.0),
-               Engine("cg", 68.0, 0.5, {"gn2": 1.0})),
-              (Reserve("eol", "thr", 10.0),))
-
-
-def history(n: int) -> list[tuple[str, dict]]:
-    """The core benchmark's plausible mix: small burns by dv and duration, thruster uses, rare mass changes."""
-    out = []
-    for i in range(n):
-        r = i % 10
-        if r < 5:
-            out.append(("burn", {"engine": "thr", "dv": 0.01 + 0.001 * (i % 7)}))
-        elif r < 7:
-            out.append(("burn", {"engine": "thr", "duration": 2.0 + (i % 5)}))
-        elif r < 9:
-            out.append(("use", {"engine": "cg", "propellant": 0.0004}))
-        else:
-            out.append(("mass", {"delta": -0.001}))
-    return out
+from core_bench import CRAFT, T0, history  # noqa: E402  (the same craft and mix as the core benchmark)
 
 
 def alternating(n: int) -> list[tuple[str, dict]]:

@@ -19,7 +19,7 @@ KIND_GROUPS = {"gauge": ("gauge", "rebaseline"), "approve": ("approve", "reject"
 
 APPROVAL_TAG = {
     "approved": ("✓", "approved", "green"), "rejected": ("⊘", "rejected", "bold red"),
-    "stale": ("⚠", "approval stale", "bold dark_orange"), "none": ("·", "no decision", "grey62"),
+    "stale": ("⚠", "approval stale", "bold dark_orange"), "none": ("·", "undecided", "grey62"),
     "approved?": ("✓", "approved, re-checking", "green"),
 }
 """A plan's approval state as glyph, words and colour ('approved?' until the Monte Carlo has said

@@ -122,8 +122,8 @@ class LowBounds:
     def summary(self) -> str:
         if self.result is not None:
             r = self.result
-            return (f"low bounds: {r['samples']:,} samples, seed {r['seed']}, {self.seconds or 0:.1f} s · "
-                    f"reserves intact p {r['reserves_probability']:.4f}")
+            return (f"reserves intact p {r['reserves_probability']:.4f} · {r['samples']:,} samples, "
+                    f"seed {r['seed']}")
         if self.error is not None:
             return f"low bounds not available: {self.error}"
         return f"sampling for the {CONFIDENCE:.0%} low bounds… {100 * (self.fraction or 0.0):.0f}%"

@@ -171,8 +171,8 @@ class RebaselineForm(FormDialog):
                                                   "required: the name of the person adopting the value"),
                   "a name", required=True),
             text_field("reason", "reason", "why the value is adopted"),
-            Field("force", "beyond 3σ", options=[("refuse (investigate first)", False),
-                                                ("adopt anyway (forced)", True)], required=True, value=False),
+            Field("force", "beyond 3σ", options=[("refuse (investigate first)", "refuse"),
+                                                ("adopt anyway (forced)", "force")], required=True, value="refuse"),
             text_field("note", "note", "free text"),
         ]
 
@@ -199,7 +199,7 @@ class RebaselineForm(FormDialog):
     def commit(self, values: dict[str, Any]) -> Any:
         e = self.app.snap.resolved.effective.get(values["gauge"])
         tank, live = e.data["tank"], self.app.live
-        args = dict(reason=values.get("reason") or None, force=bool(values.get("force")),
+        args = dict(reason=values.get("reason") or None, force=values.get("force") == "force",
                     note=values.get("note") or None)
 
         def record(progress):

@@ -136,7 +136,7 @@ class EngineTable(Widget):
             out.append_text(fmt.fit(forecast_line(f, wide), w))
             out.append("\n")
         if wide and self.reserves:
-            held = ", ".join(f"{r['id']} {r['dv_m_s']:,.1f} m/s ({r['engine']})" for r in self.reserves)
+            held = ", ".join(f"{r['id']} {r['dv_m_s']:,.1f} ({r['engine']})" for r in self.reserves)
             out.append_text(fmt.fit(Text(f"held back: {held}", style="grey70"), w))
             out.append("\n")
         if wide and self.summary:

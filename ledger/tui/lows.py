@@ -7,6 +7,8 @@ panels show '…' and the progress, never the previous snapshot's bounds beside 
 """
 from __future__ import annotations
 
+import os
+import threading
 import time
 from functools import partial
 from typing import Any, Callable
@@ -19,6 +21,11 @@ from ..services.ledger import Snapshot
 CONFIDENCE = uncertainty.DEFAULT_CONFIDENCE
 SAMPLES = uncertainty.DEFAULT_SAMPLES
 SEED = uncertainty.DEFAULT_SEED
+
+
+NICE = 5
+"""Scheduling niceness of the sampling threads: enough for the screen's thread to win a contended core,
+not so much that a loaded machine starves the bounds (project choice)."""
 
 
 class Stale(Exception):
@@ -53,7 +60,11 @@ def post(app, fn, *args) -> None:
 
 
 class LowBounds:
-    """The latest run: for which snapshot (its chain head), how far it has got, its result or error."""
+    """The latest ledger state asked for (its chain head), how far its run has got, its result or error.
+
+    One run at a time: a run cannot be stopped half way (the Monte Carlo's thread pool finishes the chunks
+    it was given), so a change during a run only queues the newest state, which runs when that one ends;
+    five quick entries cost two runs, not five at once competing with the screen for the processor."""
 
     def __init__(self, app, on_change: Callable[[], None]) -> None:
         self.app = app
@@ -63,48 +74,66 @@ class LowBounds:
         self.error: str | None = None
         self.fraction: float | None = None
         self.seconds: float | None = None
+        self.running = False
+        self.queued: Snapshot | None = None
+        self.runs = 0
+        self.asked_at = self.shown_at = 0.0  # perf_counter of the last request and of its bounds shown
 
     @staticmethod
     def key_of(snap: Snapshot) -> tuple:
         return (snap.path, snap.head, len(snap.entries))
 
     def request(self, snap: Snapshot) -> bool:
-        """Start a run for ``snap`` unless one for the same ledger state is done or under way."""
+        """Ask for the bounds of ``snap`` unless they are done or under way for the same ledger state."""
         key = self.key_of(snap)
         if key == self.key:
             return False
         self.key, self.result, self.error, self.fraction = key, None, None, 0.0
-        self.app.run_worker(partial(self._run, snap, key), thread=True, exclusive=True, group="low-bounds",
-                            exit_on_error=False)
+        self.asked_at = time.perf_counter()
+        if self.running:
+            self.queued = snap
+        else:
+            self._start(snap)
         self.on_change()
         return True
 
+    def _start(self, snap: Snapshot) -> None:
+        self.running, self.queued = True, None
+        self.runs += 1
+        # name and description given: Textual would otherwise repr() the snapshot (0.26 s at 20k entries)
+        self.app.run_worker(partial(self._run, snap, self.key), name="low bounds", description="low bounds",
+                            thread=True, group="low-bounds", exit_on_error=False)
+
     def _run(self, snap: Snapshot, key: tuple) -> None:
+        lower_priority()
         t = time.perf_counter()
-        progress = cancellable(lambda done, total: post(self.app, self._progress, key, done / total))
+
+        def report(done: int, total: int) -> None:
+            if key != self.key:
+                raise Stale()  # superseded: stop at this chunk (a single-threaded run stops at once)
+            post(self.app, self._progress, key, done / total)
         try:
-            res = uncertainty.confidence_status(snap, CONFIDENCE, SAMPLES, SEED, progress=progress)
+            res = uncertainty.confidence_status(snap, CONFIDENCE, SAMPLES, SEED, progress=cancellable(report))
         except Stale:
-            return
+            post(self.app, self._ended, key, None, None, 0.0)
         except Exception as exc:  # noqa: BLE001 - shown in the panel; the console carries on without bounds
-            post(self.app, self._failed, key, one_line(exc))
-            return
-        post(self.app, self._done, key, res, time.perf_counter() - t)
+            post(self.app, self._ended, key, None, one_line(exc), 0.0)
+        else:
+            post(self.app, self._ended, key, res, None, time.perf_counter() - t)
 
     def _progress(self, key: tuple, fraction: float) -> None:
         if key == self.key and self.result is None:
             self.fraction = fraction
             self.on_change()
 
-    def _done(self, key: tuple, res: dict[str, Any], seconds: float) -> None:
-        if key == self.key:
-            self.result, self.fraction, self.seconds = res, None, seconds
+    def _ended(self, key: tuple, res: dict[str, Any] | None, error: str | None, seconds: float) -> None:
+        self.running = False
+        if key == self.key and (res is not None or error is not None):
+            self.result, self.error, self.seconds, self.fraction = res, error, seconds, None
             self.on_change()
-
-    def _failed(self, key: tuple, message: str) -> None:
-        if key == self.key:
-            self.error, self.fraction = message, None
-            self.on_change()
+            self.shown_at = time.perf_counter()
+        elif self.queued is not None:
+            self._start(self.queued)
 
     # --- what the panels show ----------------------------------------------------------------------
     @property
@@ -131,6 +160,15 @@ class LowBounds:
     def marker(self) -> str | None:
         """What a low cell holds when there is no figure: '…' while sampling, '-' after a failure."""
         return "-" if self.error is not None else None
+
+
+def lower_priority() -> None:
+    """Let the screen's thread come first: the Monte Carlo's thread (and the pool threads it starts, which
+    inherit it on Linux) run at a lower scheduling priority. Nothing happens where that is not possible."""
+    try:
+        os.setpriority(os.PRIO_PROCESS, threading.get_native_id(), NICE)
+    except (AttributeError, OSError):
+        pass
 
 
 def panel_inputs(snap: Snapshot, status: dict[str, Any], tanks: list[dict[str, Any]], lows: LowBounds

@@ -25,7 +25,7 @@ def detail_text(d: dict[str, Any]) -> Text:
     def line(label: str, value: Any, style: str = "") -> None:
         if value is None or value == "" or value == []:
             return
-        out.append(f"{label:<18}", style="grey70")
+        out.append(f"{label:<17} ", style="grey70")
         out.append(f"{value}\n", style=style)
 
     out.append_text(fmt.kind_text(d["kind"], d.get("superseded", False)))
@@ -69,6 +69,14 @@ def detail_text(d: dict[str, Any]) -> Text:
     return out
 
 
+def fit_scroll(screen, body_id: str, content_id: str, spare: int) -> None:
+    """Give a scrolling body the height of its content, at most the screen's height less ``spare`` rows."""
+    body, content = screen.query_one(body_id), screen.query_one(content_id)
+    width = max(10, body.size.width - 1)
+    need = content.get_content_height(screen.size, screen.size, width)
+    body.styles.height = max(3, min(need, screen.size.height - spare))
+
+
 class DetailDialog(ModalScreen):
     BINDINGS = [Binding("escape", "close", "Close"), Binding("enter", "close", "Close", show=False),
                 Binding("c", "correct", "Correct it"), Binding("k", "check", "Check it"),
@@ -90,6 +98,16 @@ class DetailDialog(ModalScreen):
             if self._open_reading():
                 keys.append("r re-baseline from this reading")
             yield Static(" · ".join(keys), id="form-keys")
+
+    def on_mount(self) -> None:
+        self.call_after_refresh(self.fit_body)
+
+    def on_resize(self) -> None:
+        self.call_after_refresh(self.fit_body)
+
+    def fit_body(self) -> None:
+        """As tall as the entry needs, but never pushing the caution off the screen (it scrolls instead)."""
+        fit_scroll(self, "#detail-body", "#detail", spare=11)
 
     def _correctable(self) -> bool:
         return self.detail["kind"] in FIELDS_BY_KIND or self.detail["kind"] == "correct"
@@ -144,6 +162,12 @@ class AlertsDialog(ModalScreen):
                 yield Static(body, id="alerts")
             yield Static(CAUTION, id="form-caution")
             yield Static("esc close", id="form-keys")
+
+    def on_mount(self) -> None:
+        self.call_after_refresh(fit_scroll, self, "#detail-body", "#alerts", 11)
+
+    def on_resize(self) -> None:
+        self.call_after_refresh(fit_scroll, self, "#detail-body", "#alerts", 11)
 
     def action_close(self) -> None:
         self.dismiss(None)

@@ -24,6 +24,18 @@ def _g(x: Any) -> str:
     return f"{x:.6g}" if isinstance(x, float) else str(x)
 
 
+SUFFIX_UNITS = (("_kg_m3", "kg/m³"), ("_m3", "m³"), ("_kg", "kg"), ("_pa", "Pa"), ("_k", "K"),
+                ("_rel", "(relative)"), ("_s", "s"))
+
+
+def named(key: str, value: Any) -> tuple[str, str]:
+    """'liquid_density_kg_m3', 1008.07 -> ('liquid density', '1008.07 kg/m³'): the unit moves to the value."""
+    for suffix, unit in SUFFIX_UNITS:
+        if key.endswith(suffix):
+            return key[: -len(suffix)].replace("_", " "), f"{_g(value)} {unit}"
+    return key.replace("_", " "), _g(value)
+
+
 def gauge_lines(d: Mapping[str, Any]) -> list[Line]:
     flagged = bool(d.get("flagged"))
     out: list[Line] = [
@@ -44,9 +56,10 @@ def gauge_lines(d: Mapping[str, Any]) -> list[Line]:
     ]
     sig = d.get("sigmas") or {}
     if sig:
-        out.append(("error model", ", ".join(f"{k.replace('_', ' ')} {_g(v)}" for k, v in sig.items()), "grey70"))
+        out.append(("error model (1σ)", ", ".join(" ".join(named(k, v)) for k, v in sig.items()), "grey70"))
     for k, v in (d.get("details") or {}).items():
-        out.append((f"  {k.replace('_', ' ')}", _g(v), "grey70"))
+        label, value = named(k, v)
+        out.append((f"  {label}", value, "grey70"))
     return out
 
 

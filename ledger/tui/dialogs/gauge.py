@@ -53,7 +53,8 @@ def reading_text(r: dict[str, Any], foot: str = PREVIEW_FOOT) -> Text:
         out.append(": look for a leak, a sensor fault or a flow-model error first\n")
     else:
         out.append("  ✓ within 3σ", style="green")
-        out.append(f" · a re-baseline would adopt {r['rebaseline_kg']:,.3f} ± {r['rebaseline_sigma_kg']:.3f} kg\n")
+        out.append(f"\ncombined {r['rebaseline_kg']:,.3f} ± {r['rebaseline_sigma_kg']:.3f} kg (what a re-baseline "
+                   "would adopt)\n")
     out.append(foot, style="italic")
     return out
 

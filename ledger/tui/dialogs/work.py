@@ -41,8 +41,8 @@ class WorkMixin:
         self.busy, self.busy_writes = label, writes
         self._work_token = token = object()
         self.show_progress(label, 0.0 if not writes else None)
-        self.run_worker(partial(self._work, token, fn, done, failed), thread=True, exclusive=True,
-                        group="dialog-work", exit_on_error=False)
+        self.run_worker(partial(self._work, token, fn, done, failed), name=label, description=label, thread=True,
+                        exclusive=True, group="dialog-work", exit_on_error=False)
 
     def _work(self, token, fn, done, failed) -> None:
         label = self.busy or ""

@@ -22,21 +22,20 @@ def _low(x: float | str | None, digits: int = 1) -> str:
 
 
 def gauge_line(g: dict[str, Any], wide: bool) -> Text:
-    """The tank's latest gauge reading against the bookkeeping at its time (stored figures, no CoolProp)."""
-    flagged = bool(g.get("flagged"))
+    """The tank's latest gauge reading against the bookkeeping at its time (stored figures, no CoolProp):
+    '◉ #63 06-10: 81.8±0.5 vs book 82.0 kg -0.4σ ok'."""
     out = Text("  " if wide else "")
     out.append("◉ ", style="dodger_blue1")
-    when = fmt.when(g.get("at"))
-    est = f"{g['propellant_kg']:,.1f}±{g['sigma_kg']:,.1f} kg"
+    est = f"{g['propellant_kg']:,.1f}±{g['sigma_kg']:,.1f}"
     if wide:
-        out.append(f"gauge #{g['id']} {when[5:]}: {est} vs book {g['bookkeeping_kg']:,.1f}, ")
+        out.append(f"#{g['id']} {fmt.when(g.get('at'))[5:10]}: {est} vs book {g['bookkeeping_kg']:,.1f} kg ")
     else:
-        out.append(f"#{g['id']} {est} ")
+        out.append(f"#{g['id']} {est} kg ")
     out.append(f"{g['difference_sigma']:+.1f}σ", style="bold")
-    if flagged:
+    if g.get("flagged"):
         out.append(" ⚠ BEYOND 3σ" if wide else " ⚠ >3σ", style="bold red")
     else:
-        out.append(" within 3σ" if wide else " ok", style="green")
+        out.append(" ok", style="green")
     if g.get("adopted_by"):
         out.append(f" · ≡ adopted #{g['adopted_by']}" if wide else f" ≡#{g['adopted_by']}", style="orchid")
     return out

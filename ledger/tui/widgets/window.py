@@ -92,6 +92,11 @@ def cells(row: dict[str, Any], tank_ids: Sequence[str], narrow: bool = False,
           data: Mapping[str, Any] | None = None, approval: str | None = None) -> list[Any]:
     """Table cells for one ``views.log`` row (``data``: the entry's stored fields, for the status)."""
     status = status_text(row, data, approval)
+    amount = row.get("amount") or ""
+    if data and row["kind"] == "gauge" and data.get("propellant_kg") is not None:  # ± rather than +-
+        amount = f"{data.get('tank')} {data['propellant_kg']:,.2f}±{data.get('sigma_kg', 0.0):,.2f} kg"
+    elif data and row["kind"] == "rebaseline" and data.get("remaining_kg") is not None:
+        amount = f"{data.get('tank')} ≡ {data['remaining_kg']:,.2f} kg"
     drawn = row.get("drawn_kg") or {}
     mass = row.get("mass_after_kg")
     out: list[Any] = [
@@ -99,7 +104,7 @@ def cells(row: dict[str, Any], tank_ids: Sequence[str], narrow: bool = False,
         fmt.kind_text(row["kind"], row.get("superseded", False)),
         fmt.when(row.get("at"))[5:] if narrow else fmt.when(row.get("at")),
         row.get("engine") or "",
-        Text(row.get("amount") or "", justify="right"),
+        Text(amount, justify="right"),
         Text(fmt.kg(mass, 2) if mass is not None else "", justify="right"),
     ]
     adjusted = row.get("adjusted_kg") or {}

@@ -197,7 +197,9 @@ class LedgerConsole(App):
         if self.snap is not None:
             chain = ("intact" if self.live.verified else "being checked") if self.snap.integrity is None \
                 else f"BROKEN: {self.snap.integrity}"
-            self.push_screen(AlertsDialog(chain, [w for w in self.snap.warnings if not w.startswith("INTEGRITY")]))
+            notes = [self.lows.summary()] if self.lows.error else []
+            self.push_screen(AlertsDialog(chain, notes + [w for w in self.snap.warnings
+                                                           if not w.startswith("INTEGRITY")]))
 
     def open_detail(self, seq: int) -> None:
         d = browse.detail(self.snap, self.ix, seq, self.live.record_of(seq))

@@ -21,6 +21,7 @@ APPROVAL_TAG = {
     "approved": ("✓", "approved", "green"), "rejected": ("⊘", "rejected", "bold red"),
     "stale": ("⚠", "approval stale", "bold dark_orange"), "none": ("·", "undecided", "grey62"),
     "approved?": ("✓", "approved, re-checking", "green"),
+    "unchecked": ("✓", "approved, not re-checked", "yellow"),
 }
 """A plan's approval state as glyph, words and colour ('approved?' until the Monte Carlo has said
 whether the ledger has moved under the approval)."""

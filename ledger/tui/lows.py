@@ -192,5 +192,6 @@ def panel_inputs(snap: Snapshot, status: dict[str, Any], tanks: list[dict[str, A
             approvals[p.seq] = res["approvals"][str(p.seq)]["approval"]
         else:
             d = snap.resolved.decisions.get(p.seq)
-            approvals[p.seq] = "none" if d is None else "approved?" if d.kind == "approve" else "rejected"
+            approve = "unchecked" if lows.error is not None else "approved?"
+            approvals[p.seq] = "none" if d is None else approve if d.kind == "approve" else "rejected"
     return tank_rows, list(engines.values()), fc["engines"], approvals

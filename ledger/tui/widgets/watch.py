@@ -15,7 +15,8 @@ def approval_text(state: str | None, wide: bool) -> Text:
     """Glyph and word(s) for a plan's approval state (the glyph alone never carries it)."""
     sym, words, style = fmt.APPROVAL_TAG.get(state or "none", fmt.APPROVAL_TAG["none"])
     if not wide:
-        words = {"approval stale": "stale", "approved, re-checking": "approved…"}.get(
+        words = {"approval stale": "stale", "approved, re-checking": "approved…",
+                 "approved, not re-checked": "approved?"}.get(
             words, words)
     return Text(f"{sym} {words}", style=style)
 

@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 from typing import Any, Iterable, Mapping, Sequence
 
 from ..core import capability as cap
-from ..core.entries import BURN, CORRECT, MASS, PLAN, USE, Entry
+from ..core.entries import BURN, CORRECT, GAUGE, MASS, PLAN, REBASELINE, USE, Entry
 from ..errors import InputError
 from .ledger import Snapshot
 from .timefmt import iso
@@ -117,6 +117,10 @@ def row(snap: Snapshot, ix: LogIndex, seq: int) -> dict[str, Any]:
     out.update(at=iso(shown.at), note=shown.note if e.kind != CORRECT else e.note,
                engine=shown.get("engine"), amount=_amount(shown.data))
     out["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > 3600.0
+    if e.kind in (GAUGE, REBASELINE):
+        out.update(tank=e.get("tank"), reason=e.get("reason") or None)
+        if e.kind == REBASELINE:
+            out["gauge"] = e.get("gauge")
     if shown.get("plan") is not None and e.kind != CORRECT:
         out["plan"] = shown.get("plan")
     if e.kind == PLAN:
@@ -129,6 +133,9 @@ def row(snap: Snapshot, ix: LogIndex, seq: int) -> dict[str, Any]:
         out["dv_m_s"] = float(rep.dv[i])
         out["drawn_kg"] = {t: float(rep.drawn[i, k]) for k, t in enumerate(snap.craft.tank_ids)
                            if rep.drawn[i, k] != 0}
+        if rep.adjusted is not None and rep.adjusted[i].any():
+            out["adjusted_kg"] = {t: float(rep.adjusted[i, k]) for k, t in enumerate(snap.craft.tank_ids)
+                                  if rep.adjusted[i, k] != 0}
     return out
 
 
@@ -139,7 +146,7 @@ def rows(snap: Snapshot, ix: LogIndex, seqs: Iterable[int]) -> list[dict[str, An
 def _haystack(e: Entry) -> str:
     d = e.data
     parts = [str(e.seq), e.kind, e.by, e.note, str(d.get("engine") or ""), str(d.get("reason") or ""),
-             iso(e.at)]
+             str(d.get("tank") or ""), str(d.get("from") or ""), str(d.get("to") or ""), iso(e.at)]
     return " ".join(parts).lower()
 
 

@@ -18,7 +18,7 @@ import numpy as np
 
 from ..core import capability as cap
 from ..core.codec import craft_from_dict
-from ..core.entries import BURN, CORRECT, MASS, PLAN, USE, WITHDRAW, Entry, Resolved, resolve
+from ..core.entries import BURN, CORRECT, DECISIONS, MASS, PLAN, REBASELINE, USE, WITHDRAW, Entry, Resolved, resolve
 from ..core.replay import Replay, replay
 from ..errors import StoreError
 from ..store.chain import Break, digest
@@ -134,8 +134,10 @@ class LiveLedger(Ledger):
         state = cap.State(rep.mass_kg, rep.remaining_kg)
         engines = tuple(cap.capability(craft, state))
         warnings = _warnings(craft, resolved.events, rep, state, engines, integrity)
+        last = records[-1] if records else meta
+        head = (int(last.get("seq", len(records))), str(last.get("hash", "")))
         self._snap = Snapshot(self.path, craft, meta, entries, resolved, rep, state, engines, integrity,
-                              tuple(warnings))
+                              tuple(warnings), head)
         self._key = key
         return self._snap
 
@@ -149,8 +151,8 @@ class LiveLedger(Ledger):
 
 def extend(craft, prev: Snapshot, new: Sequence[Entry]) -> tuple[Resolved, Replay] | None:
     """``resolve`` and ``replay`` of prev's entries plus ``new``, reusing prev's, when the new entries
-    only append: no corrections, and events dated at or after the last event replayed. Otherwise None
-    (the caller resolves and replays everything). Replaying the new events alone from prev's final
+    only append: no corrections or re-baselines, and events dated at or after the last event replayed.
+    Otherwise None (the caller resolves and replays everything). Replaying the new events alone from prev's final
     state is the same prefix scan, started where the old one ended."""
     res = prev.resolved
     if not new:
@@ -159,10 +161,11 @@ def extend(craft, prev: Snapshot, new: Sequence[Entry]) -> tuple[Resolved, Repla
     effective = dict(res.effective)
     executed_by = dict(res.executed_by)
     withdrawn = set(res.withdrawn)
+    decisions = dict(res.decisions)
     plans = list(res.pending)
     events: list[Entry] = []
     for e in new:
-        if e.kind == CORRECT:
+        if e.kind in (CORRECT, REBASELINE):
             return None
         effective[e.seq] = e
         if e.kind in (BURN, USE, MASS):
@@ -176,10 +179,12 @@ def extend(craft, prev: Snapshot, new: Sequence[Entry]) -> tuple[Resolved, Repla
             plans.append(e)
         elif e.kind == WITHDRAW:
             withdrawn.add(int(e.get("plan")))
+        elif e.kind in DECISIONS:
+            decisions[int(e.get("plan"))] = e
     pending = sorted((p for p in plans if p.seq not in executed_by and p.seq not in withdrawn),
                      key=lambda p: (p.at, p.seq))
     resolved = Resolved(res.events + tuple(events), tuple(pending), res.superseded, effective, executed_by,
-                        frozenset(withdrawn))
+                        frozenset(withdrawn), decisions)
     if not events:
         return resolved, prev.replay
     old = prev.replay
@@ -192,5 +197,6 @@ def extend(craft, prev: Snapshot, new: Sequence[Entry]) -> tuple[Resolved, Repla
                  np.concatenate((old.propellant, part.propellant)), np.concatenate((old.dv, part.dv)),
                  np.vstack((old.drawn.reshape(-1, len(craft.tanks)), part.drawn)),
                  np.vstack((old.remaining.reshape(-1, len(craft.tanks)), part.remaining)),
-                 part.mass_kg, part.remaining_kg)
+                 part.mass_kg, part.remaining_kg,
+                 None if old.adjusted is None else np.vstack((old.adjusted, np.zeros(part.drawn.shape))))
     return resolved, rep

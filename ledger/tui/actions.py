@@ -14,6 +14,11 @@ class Action:
     title: str         # command palette
     help: str
     key_display: str | None = None
+    short: str = ""    # footer on narrow terminals (default: the label)
+
+    def __post_init__(self) -> None:
+        if not self.short:
+            object.__setattr__(self, "short", self.label)
 
 
 ACTIONS = (
@@ -21,14 +26,26 @@ ACTIONS = (
     Action("p", "plan", "Plan", "Log a planned burn", "engine, delta-v and the planned time"),
     Action("m", "mass", "Mass", "Log a mass change", "signed, e.g. -35 kg for a separation"),
     Action("u", "use", "Use", "Log other propellant use", "attitude control, venting: a duration or a mass"),
-    Action("w", "withdraw", "Withdraw", "Withdraw a pending plan", "the plan stays, marked withdrawn"),
-    Action("c", "correct", "Correct", "Correct the selected entry", "a new entry supersedes it; the original stays"),
-    Action("k", "check", "Check", "Check a manoeuvre", "engine and delta-v or a pending plan; records nothing"),
+    Action("w", "withdraw", "Withdraw", "Withdraw a pending plan", "the plan stays, marked withdrawn", short="Wdrw"),
+    Action("c", "correct", "Correct", "Correct the selected entry", "a new entry supersedes it; the original stays",
+           short="Corr"),
+    Action("k", "check", "Check", "Check a manoeuvre", "engine and delta-v or a pending plan; verdict at 99 %; "
+           "records nothing"),
+    Action("d", "decide", "Decide", "Approve or reject a pending plan",
+           "a named person; the check it rests on is recorded with it"),
+    Action("g", "gauge", "Gauge", "Gauge a tank from pressure and temperature",
+           "preview the estimate against the bookkeeping, then record the reading"),
+    Action("r", "rebaseline", "Rebase", "Re-baseline a tank from a gauge reading",
+           "a named person adopts the reading combined with the bookkeeping"),
+    Action("h", "handover", "Handover", "Shift handover", "preview the report, export text/md/html, record it",
+           short="Hand"),
     Action("t", "trend", "Trend", "Show the trend", "propellant per tank and dv free over time"),
     Action("o", "detail", "Open", "Open the selected entry", "all fields, who, when logged, what it drew"),
-    Action("a", "alerts", "Alerts", "Show every warning in full", "chain integrity, overdrawn tanks, reserves"),
-    Action("slash", "find", "Find", "Find entries", "search id, engine, note, by, reason, time", "/"),
-    Action("f", "kinds", "Kinds", "Filter by kind", "cycle: all, burns, plans, mass, uses, withdrawals, corrections"),
+    Action("a", "alerts", "Alerts", "Show every warning in full", "chain integrity, overdrawn tanks, reserves",
+           short="Alrt"),
+    Action("slash", "find", "Find", "Find entries", "search id, engine, tank, note, by, reason, time", "/"),
+    Action("f", "kinds", "Kinds", "Filter by kind",
+           "cycle: all, burns, plans, mass, uses, withdrawals, corrections, gauging, decisions, handovers"),
     Action("q", "quit", "Quit", "Quit the console", "the ledger is already saved"),
 )
 

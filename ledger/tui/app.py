@@ -20,12 +20,17 @@ from ..services.ledger import Snapshot, resolve_path
 from ..services.live import LiveLedger
 from . import actions
 from .dialogs.check import CheckDialog
+from .dialogs.decide import DecideForm
 from .dialogs.detail import AlertsDialog, DetailDialog
 from .dialogs.entries import BurnForm, CorrectForm, MassForm, PlanForm, UseForm, WithdrawForm
+from .dialogs.gauge import GaugeForm, RebaselineForm
+from .lows import LowBounds
 from .screens.main import MainScreen
 
 POLL_S = 0.3
-FORMS = {"burn": BurnForm, "plan": PlanForm, "mass": MassForm, "use": UseForm, "withdraw": WithdrawForm}
+FORMS = {"burn": BurnForm, "plan": PlanForm, "mass": MassForm, "use": UseForm, "withdraw": WithdrawForm,
+         "correct": CorrectForm, "decide": DecideForm, "gauge": GaugeForm, "rebaseline": RebaselineForm}
+NEEDS_PENDING = ("withdraw", "decide")
 
 
 class LedgerConsole(App):
@@ -43,6 +48,7 @@ class LedgerConsole(App):
         self.loaded = threading.Event()      # first snapshot drawn (tests and benchmarks wait on it)
         self._painted_once = threading.Event()
         self._busy = False
+        self.lows = LowBounds(self, self._lows_changed)
 
     # --- opening ------------------------------------------------------------------------------------
     def on_mount(self) -> None:
@@ -115,6 +121,8 @@ class LedgerConsole(App):
         for screen in self.screen_stack:
             if getattr(screen, "IS_TREND", False):
                 screen.show(snap)
+        if self._painted_once.is_set():  # the first paint never waits for the Monte Carlo
+            self.lows.request(snap)
         self.timings["apply_s"] = time.perf_counter() - t
         if not self.loaded.is_set():
             self.timings["first_apply_s"] = self.timings["apply_s"]
@@ -124,6 +132,11 @@ class LedgerConsole(App):
     def _painted(self) -> None:
         self.timings.setdefault("first_paint_at", time.perf_counter())
         self._painted_once.set()
+        self.lows.request(self.snap)
+
+    def _lows_changed(self) -> None:
+        if self.main is not None and self.main.snap is not None:
+            self.main.lows_changed()
 
     # --- writing (forms call these; LedgerError goes back to the form) ---------------------------------
     def write(self, kind: str, data: dict[str, Any], *, at=None, by=None, note=None):
@@ -141,11 +154,16 @@ class LedgerConsole(App):
         return stored, warnings
 
     def _after_write(self, stored: dict, warnings: list[str], t0: float) -> None:
+        self.recorded(stored["seq"], stored["kind"], warnings, t0)
+
+    def recorded(self, seq: int, kind: str, warnings: list[str], t0: float | None = None) -> None:
+        """An entry was appended (here or by a service a worker called): show it and say so."""
         window = self.main.window
-        window.cursor_seq, window.follow, window.anchor = stored["seq"], True, None  # show the new entry
+        window.cursor_seq, window.follow, window.anchor = seq, True, None  # show the new entry
         self.apply(self.live.snapshot())
-        self.timings["record_to_panels_s"] = time.perf_counter() - t0
-        self.notify(f"recorded entry #{stored['seq']} ({stored['kind']})", timeout=4)
+        if t0 is not None:
+            self.timings["record_to_panels_s"] = time.perf_counter() - t0
+        self.notify(f"recorded entry #{seq} ({kind})", timeout=4)
         for w in warnings:
             self.notify(w, severity="warning", timeout=12)
 
@@ -153,10 +171,18 @@ class LedgerConsole(App):
     def open_form(self, kind: str, arg: Any = None) -> None:
         if self.snap is None:
             return
-        if kind == "withdraw" and not self.snap.resolved.pending:
-            self.notify("no pending plans to withdraw", severity="warning")
+        if kind in NEEDS_PENDING and not self.snap.resolved.pending:
+            self.notify(f"no pending plans to {kind}", severity="warning")
             return
-        self.push_screen(CorrectForm(arg) if kind == "correct" else FORMS[kind]())
+        if kind == "rebaseline" and not any(e.kind == "gauge" for e in self.snap.entries):
+            self.notify("no gauge readings to adopt: record one with g", severity="warning")
+            return
+        self.push_screen(FORMS[kind](arg) if kind in ("correct", "decide", "rebaseline") else FORMS[kind]())
+
+    def open_handover(self) -> None:
+        if self.snap is not None:
+            from .screens.handover import HandoverScreen  # noqa: PLC0415 - the reports load when asked for
+            self.push_screen(HandoverScreen())
 
     def open_check(self, plan: int | None = None) -> None:
         if self.snap is not None:
@@ -171,17 +197,25 @@ class LedgerConsole(App):
         if self.snap is not None:
             chain = ("intact" if self.live.verified else "being checked") if self.snap.integrity is None \
                 else f"BROKEN: {self.snap.integrity}"
-            self.push_screen(AlertsDialog(chain, [w for w in self.snap.warnings if not w.startswith("INTEGRITY")]))
+            notes = [self.lows.summary()] if self.lows.error else []
+            self.push_screen(AlertsDialog(chain, notes + [w for w in self.snap.warnings
+                                                           if not w.startswith("INTEGRITY")]))
 
     def open_detail(self, seq: int) -> None:
         d = browse.detail(self.snap, self.ix, seq, self.live.record_of(seq))
+        plan = seq if d["kind"] == "plan" else d.get("data", {}).get("plan") if d["kind"] in ("approve", "reject") \
+            else None
+        d["approval_now"] = self.main.approvals.get(plan) if plan is not None else None
+        if d["kind"] == "gauge":
+            from ..services.records import adopted_by  # noqa: PLC0415
+            d["adopted_by"] = adopted_by(self.snap.resolved, seq)
         self.push_screen(DetailDialog(d), callback=self._detail_done)
 
     def _detail_done(self, result) -> None:
-        if result and result[0] == "correct":
-            self.open_form("correct", result[1])
-        elif result and result[0] == "check":
+        if result and result[0] == "check":
             self.open_check(result[1])
+        elif result:
+            self.open_form(result[0], result[1])
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
         yield from super().get_system_commands(screen)

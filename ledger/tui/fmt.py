@@ -8,9 +8,23 @@ from rich.text import Text
 KIND_TAG = {
     "burn": ("▲", "BURN"), "plan": ("◇", "PLAN"), "mass": ("±", "MASS"),
     "use": ("•", "USE"), "withdraw": ("✕", "WDRW"), "correct": ("✎", "CORR"),
+    "handover": ("⇄", "HANDOVER"), "gauge": ("◉", "GAUGE"), "rebaseline": ("≡", "REBASE"),
+    "approve": ("✓", "APPROVE"), "reject": ("⊘", "REJECT"),
 }
 KIND_NAMES = {"burn": "executed burns", "plan": "plans", "mass": "mass changes", "use": "other uses",
-              "withdraw": "withdrawals", "correct": "corrections"}
+              "withdraw": "withdrawals", "correct": "corrections", "handover": "handovers",
+              "gauge": "gauge readings and re-baselines", "approve": "approvals and rejections"}
+KIND_GROUPS = {"gauge": ("gauge", "rebaseline"), "approve": ("approve", "reject")}
+"""Filter stops that take several kinds (the filter key cycles through KIND_NAMES' keys)."""
+
+APPROVAL_TAG = {
+    "approved": ("✓", "approved", "green"), "rejected": ("⊘", "rejected", "bold red"),
+    "stale": ("⚠", "approval stale", "bold dark_orange"), "none": ("·", "undecided", "grey62"),
+    "approved?": ("✓", "approved, re-checking", "green"),
+    "unchecked": ("✓", "approved, not re-checked", "yellow"),
+}
+"""A plan's approval state as glyph, words and colour ('approved?' until the Monte Carlo has said
+whether the ledger has moved under the approval)."""
 
 # Gauge cells: the glyph carries the meaning, colour only repeats it.
 FREE, RESERVE, RESIDUAL, EMPTY = "█", "▒", "░", "·"
@@ -27,7 +41,9 @@ def legend(compact: bool) -> str:
 
 
 KIND_STYLE = {"burn": "bold bright_cyan", "plan": "bold yellow", "mass": "bold magenta", "use": "cyan",
-              "withdraw": "grey62", "correct": "bold bright_red"}
+              "withdraw": "grey62", "correct": "bold bright_red", "handover": "bold white",
+              "gauge": "bold dodger_blue1", "rebaseline": "bold orchid", "approve": "bold green3",
+              "reject": "bold red"}
 
 
 def fit(text: Text, width: int) -> Text:

@@ -14,10 +14,11 @@ HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.dirname(os.path.dirname(HERE))
 sys.path[:0] = [ROOT, HERE]
 
+from ledger.services import approvals, gauging  # noqa: E402
 from ledger.services.records import make_record  # noqa: E402
 from ledger.services.timefmt import parse_time  # noqa: E402
 from ledger.tui.app import make_app  # noqa: E402
-from tui_support import KEY_NAMES, fill, ready  # noqa: E402
+from tui_support import KEY_NAMES, fill, lows_done, ready, until  # noqa: E402
 
 OUT = os.path.join(ROOT, "docs", "screens")
 
@@ -35,6 +36,14 @@ def busy_ledger(path: str) -> None:
         elif k % 3 == 0:
             recs.append(make_record("use", t, t + 300, "ops", "wheel offload", {"engine": "rcs", "duration": 35.0}))
     led.file.append_many(recs)
+    return led
+
+
+def decorated_ledger(path: str) -> None:
+    """The busy ledger with plan 13 approved and a gauge reading of the hydrazine tank (within 3 sigma)."""
+    led = busy_ledger(path)
+    approvals.decide(led, "approve", 13, "F. Lead", note="inclination trim as planned")
+    gauging.record_gauge(led, "hyd", 17.4e5, 293.65, at=parse_time("2026-06-10T08:00Z", "at"), by="ops")
 
 
 def to_png(svg_path: str, png_path: str) -> None:
@@ -54,16 +63,19 @@ def to_png(svg_path: str, png_path: str) -> None:
     small.save(png_path, optimize=True)
 
 
-async def shoot(path: str, name: str, size, keys=()) -> None:
+async def shoot(path: str, name: str, size, keys=(), done=None) -> None:
     app = make_app(path)
     async with app.run_test(size=size) as pilot:
         await ready(app, pilot)
+        await lows_done(app, pilot)
         for k in keys:
             if k.startswith("type:"):
                 await pilot.press(*[KEY_NAMES.get(c, c) for c in k[5:]])
             else:
                 await pilot.press(k)
             await pilot.pause(0.2)
+        if done is not None:
+            await until(pilot, lambda: done(app), what=name)
         await pilot.pause(0.3)
         svg = os.path.join(OUT, f"{name}.svg")
         app.save_screenshot(filename=os.path.basename(svg), path=OUT)
@@ -71,14 +83,36 @@ async def shoot(path: str, name: str, size, keys=()) -> None:
     os.unlink(svg)
 
 
+GAUGE_KEYS = ["g", "type:17.4 bar", "tab", "type:20.5 degC", "ctrl+s"]
+HANDOVER_KEYS = ["h", "type:A. Day", "tab", "type:B. Night"]
+
+
+def previewed(app) -> bool:
+    return getattr(app.screen, "previewed", None) is not None
+
+
+def reported(app) -> bool:
+    return getattr(app.screen, "report", None) is not None
+
+
+def checked(app) -> bool:
+    return getattr(app.screen, "confidence", None) is not None
+
+
 SHOTS = [
-    ("main-80x24", (80, 24), []),
-    ("main-160x48", (160, 48), []),
-    ("main-200x60", (200, 60), []),
-    ("burn-form-80x24", (80, 24), ["b", "type:12", "ctrl+s"]),
-    ("check-160x48", (160, 48), ["k", "type:25 m/s"]),
-    ("trend-160x48", (160, 48), ["t"]),
-    ("detail-100x40", (100, 40), ["up", "enter"]),
+    ("main-80x24", (80, 24), [], None),
+    ("main-160x48", (160, 48), [], None),
+    ("main-200x60", (200, 60), [], None),
+    ("burn-form-80x24", (80, 24), ["b", "type:12", "ctrl+s"], None),
+    ("check-160x48", (160, 48), ["k", "type:25 m/s"], checked),
+    ("check-80x24", (80, 24), ["k", "type:25 m/s"], checked),
+    ("trend-160x48", (160, 48), ["t"], None),
+    ("detail-100x40", (100, 40), ["up", "enter"], None),
+    ("gauge-80x24", (80, 24), GAUGE_KEYS, previewed),
+    ("gauge-160x48", (160, 48), GAUGE_KEYS, previewed),
+    ("decide-80x24", (80, 24), ["d", "type:F. Lead"], None),
+    ("handover-80x24", (80, 24), HANDOVER_KEYS, reported),
+    ("handover-160x48", (160, 48), HANDOVER_KEYS, reported),
 ]
 
 
@@ -86,11 +120,11 @@ def main(only: list[str]) -> None:
     os.makedirs(OUT, exist_ok=True)
     with tempfile.TemporaryDirectory() as tmp:
         path = os.path.join(tmp, "screens.ledger.json")
-        busy_ledger(path)
-        for name, size, keys in SHOTS:
+        decorated_ledger(path)
+        for name, size, keys, done in SHOTS:
             if only and not any(re.search(o, name) for o in only):
                 continue
-            asyncio.run(shoot(path, name, size, keys))
+            asyncio.run(shoot(path, name, size, keys, done))
             print(os.path.join("docs", "screens", f"{name}.png"))
 
 

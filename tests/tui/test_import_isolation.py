@@ -29,3 +29,20 @@ def test_console_opens_without_plotext_until_the_trend_is_asked_for():
     code = "import sys; import ledger.tui.app; print('plotext' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_console_opens_and_samples_without_coolprop(ledger_path):
+    """CoolProp (1.7 s to import, LIBRARIES.md) loads only when a gauge reading is computed: not when the
+    console opens, paints, verifies the chain and computes the low bounds."""
+    code = ("import asyncio, sys; sys.path.insert(0, 'tests/tui')\n"
+            "from ledger.tui.app import make_app\n"
+            "from tui_support import lows_done, ready\n"
+            "async def go():\n"
+            f"    app = make_app({ledger_path!r})\n"
+            "    async with app.run_test(size=(100, 30)) as pilot:\n"
+            "        await ready(app, pilot)\n"
+            "        await lows_done(app, pilot)\n"
+            "asyncio.run(go())\n"
+            "print(any(m.split('.')[0] == 'CoolProp' for m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, check=True)
+    assert out.stdout.strip().splitlines()[-1] == "False", out.stdout + out.stderr

@@ -60,3 +60,19 @@ async def ready(app, pilot, timeout: float = 10.0) -> None:
 def count(path: str) -> int:
     from ledger.services.ledger import Ledger  # noqa: PLC0415
     return len(Ledger(path).snapshot().entries)
+
+
+async def until(pilot, cond, timeout: float = 30.0, what: str = "condition") -> None:
+    """Pause until ``cond()`` is true (a worker finished); fail after ``timeout`` seconds."""
+    import time  # noqa: PLC0415
+    t0 = time.monotonic()
+    while not cond():
+        if time.monotonic() - t0 > timeout:
+            raise AssertionError(f"timed out waiting for {what}")
+        await pilot.pause(0.05)
+    await pilot.pause(0.05)
+
+
+async def lows_done(app, pilot, timeout: float = 60.0) -> None:
+    await until(pilot, lambda: app.lows.result is not None or app.lows.error is not None, timeout, "low bounds")
+    assert app.lows.error is None, app.lows.error

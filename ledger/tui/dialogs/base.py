@@ -18,6 +18,10 @@ from ...errors import LedgerError
 from ...services.records import default_user
 from ...services.views import CAUTION
 from . import fields
+from .work import WorkMixin
+
+LATER = object()
+"""What ``commit`` returns when a worker finishes the job (the form stays open until then)."""
 
 
 @dataclass
@@ -35,17 +39,19 @@ def text_field(name: str, label: str, placeholder: str = "", value: str = "") ->
     return Field(name, label, lambda s: ((s or "").strip(), None), placeholder, value=value)
 
 
-class FormDialog(ModalScreen):
+class FormDialog(WorkMixin, ModalScreen):
     """Base for every entry form. ``submit`` calls ``commit(values)``; a LedgerError lands in the form."""
 
     VERTICAL_BREAKPOINTS = [(0, "-short"), (30, "-tall")]
     TITLE = "Entry"
     HINT = ""
     FOCUS = ""  # field to start in (default: the first)
+    OK_LABEL = "Record  ctrl+s"
+    LONG = False  # many fields and a preview: on short terminals the hint gives way
     BINDINGS = [Binding("escape", "cancel", "Cancel"), Binding("ctrl+s", "submit", "Record")]
 
     def __init__(self) -> None:
-        super().__init__(classes="form-dialog")
+        super().__init__(classes="form-dialog long-form" if self.LONG else "form-dialog")
         self.fields: list[Field] = self.make_fields()
         self.touched: set[str] = set()
 
@@ -79,13 +85,20 @@ class FormDialog(ModalScreen):
                             yield Input(value=f.value or "", placeholder=f.placeholder, id=f"f-{f.name}",
                                         compact=True)
                     yield Static("", id=f"m-{f.name}", classes="field-msg")
+            yield from self.compose_extra()
             yield Static("", id="form-error")
+            yield Static("", id="work")
             with Horizontal(id="form-buttons"):
-                yield Button("Record  ctrl+s", id="ok", variant="primary", compact=True)
+                yield Button(self.OK_LABEL, id="ok", variant="primary", compact=True)
                 yield Button("Cancel  esc", id="cancel", compact=True)
             yield Static(CAUTION, id="form-caution")
 
+    def compose_extra(self) -> ComposeResult:
+        """Hook: widgets between the fields and the error line (a preview)."""
+        yield from ()
+
     def on_mount(self) -> None:
+        self.query_one("#work").display = False
         start = self.query(f"#f-{self.FOCUS}") if self.FOCUS else None
         (start.first() if start else self.query("#form-fields Input, #form-fields Select").first()).focus()
 
@@ -149,9 +162,12 @@ class FormDialog(ModalScreen):
             self.action_cancel()
 
     def action_cancel(self) -> None:
-        self.dismiss(None)
+        if self.stop_work():
+            self.dismiss(None)
 
     def action_submit(self) -> None:
+        if self.busy_writes:
+            return
         values, errors = self.parse_all()
         for f in self.fields:
             self.show_message(f.name, errors.get(f.name))
@@ -165,7 +181,11 @@ class FormDialog(ModalScreen):
         except LedgerError as exc:
             self.query_one("#form-error", Static).update(f"Not recorded: {exc}")
             return
-        self.dismiss(result)
+        if result is not LATER:
+            self.dismiss(result)
+
+    def work_failed(self, message: str) -> None:
+        self.query_one("#form-error", Static).update(f"Not recorded: {message}")
 
     @staticmethod
     def who(values: dict[str, Any]) -> str:

@@ -1,4 +1,9 @@
-"""Manoeuvre check: engine and delta-v, or a pending plan; the answer updates as you type. Writes nothing."""
+"""Manoeuvre check: engine and delta-v, or a pending plan; the answer updates as you type. Writes nothing.
+
+The nominal answer is immediate. The verdict at the confidence level (feasible, marginal, infeasible, with
+the probability that every reserve survives) needs the Monte Carlo: it runs in a worker once per ledger
+state, with its progress shown, and each check after that is a cheap pass over the same samples
+(``uncertainty.check_from``, what ``confidence_check`` computes after its own run)."""
 from __future__ import annotations
 
 from typing import Any
@@ -6,20 +11,40 @@ from typing import Any
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.containers import Horizontal, Vertical
+from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Input, Label, Select, Static
 
 from ...errors import LedgerError
-from ...services import browse
+from ...services import browse, uncertainty
 from ...services.views import CAUTION
+from ..lows import CONFIDENCE, SAMPLES, SEED, LowBounds
 from . import fields
 from .entries import engine_options, plan_options
+from .work import WorkMixin
+
+VERDICT_TAG = {"feasible": (" ✓ FEASIBLE ", "bold black on green3"),
+               "marginal": (" ◐ MARGINAL ", "bold black on dark_orange"),
+               "infeasible": (" ✗ INFEASIBLE ", "bold white on red3")}
+WAIT_S = 0.3
+"""Typing pause before the confidence check starts (the nominal answer needs no pause)."""
+
+
+def confidence_text(res: dict[str, Any]) -> Text:
+    """'at 99% confidence: ◐ MARGINAL  reserves intact with p 0.9812 ± 0.0014', then dv free after and its low."""
+    label, style = VERDICT_TAG[res["verdict"]]
+    out = Text()
+    out.append(f"at {res['confidence']:.0%} confidence: ", style="bold")
+    out.append(label, style=style)
+    out.append(f"  reserves intact with p {res['probability']:.4f} ± {res['probability_se']:.4f}\n")
+    out.append(f"dv free after {res['dv_free_after_m_s']:,.2f} m/s, low {res['dv_free_after_low_m_s']:,.2f} · "
+               f"{res['samples']:,} samples, seed {res['seed']}", style="grey70")
+    return out
 
 
 def verdict_text(res: dict[str, Any]) -> Text:
     ok = res["verdict"] == "feasible"
-    out = Text()
+    out = Text("nominal values: ")
     out.append(" ✓ FEASIBLE " if ok else " ✗ NOT FEASIBLE ", style="bold black on green3" if ok else "bold white on red3")
     out.append(f"  {res['engine']} {res['dv_m_s']:,.3f} m/s\n", style="bold")
     out.append(f"{res['reason']}\n\n")
@@ -38,15 +63,20 @@ def verdict_text(res: dict[str, Any]) -> Text:
     return out
 
 
-class CheckDialog(ModalScreen):
+class CheckDialog(WorkMixin, ModalScreen):
     """Pick a pending plan, or give engine and delta-v; see propellant per tank, dv free after, verdict."""
 
     BINDINGS = [Binding("escape", "close", "Close")]
+    VERTICAL_BREAKPOINTS = [(0, "-short"), (30, "-tall")]
 
     def __init__(self, plan: int | None = None) -> None:
         super().__init__(classes="form-dialog")
         self.start_plan = plan
         self.result: dict[str, Any] | None = None
+        self.confidence: dict[str, Any] | None = None
+        self._samples: tuple[tuple, Any] | None = None   # (ledger state, Monte Carlo samples)
+        self._timer = None
+        self._ask: tuple | None = None
 
     def compose(self) -> ComposeResult:
         snap = self.app.snap
@@ -64,11 +94,15 @@ class CheckDialog(ModalScreen):
                 yield Label("delta-v", classes="field-label")
                 yield Input(placeholder="e.g. 12 m/s", id="c-dv", compact=True)
             yield Static("", id="c-msg", classes="field-msg")
-            yield Static("Give a delta-v, or pick a pending plan.", id="check-result")
+            yield Static("", id="conf-result")
+            yield Static("", id="work")
+            with VerticalScroll(id="check-scroll"):
+                yield Static("Give a delta-v, or pick a pending plan.", id="check-result")
             yield Static(CAUTION, id="form-caution")
             yield Static("esc close", id="form-keys")
 
     def on_mount(self) -> None:
+        self.query_one("#work").display = False
         self.query_one("#c-dv" if not self.start_plan else "#c-plan").focus()
         self.recompute()
 
@@ -104,8 +138,51 @@ class CheckDialog(ModalScreen):
         except LedgerError as exc:
             self.result = None
             out.update(f"✗ {exc}")
+            self.confidence_for(None)
             return
         out.update(verdict_text(self.result))
+        self.confidence_for(None if plan in (Select.NULL, Select.BLANK, None) else int(plan))
+
+    # --- the check at the confidence level ---------------------------------------------------------
+    def confidence_for(self, plan: int | None) -> None:
+        """Drop the verdict on screen (it was for other inputs) and start the new one after a pause."""
+        self.confidence = None
+        self.query_one("#conf-result", Static).update("")
+        if self._timer is not None:
+            self._timer.stop()
+        if self.result is None:
+            self.stop_work()
+            return
+        self._ask = ask = (plan, self.result["engine"], self.result["dv_m_s"])
+        self._timer = self.set_timer(WAIT_S, lambda: self._start(ask))
+
+    def _start(self, ask: tuple) -> None:
+        snap = self.app.snap
+        key = LowBounds.key_of(snap)
+        cached = self._samples[1] if self._samples and self._samples[0] == key else None
+        plan, engine, dv = ask
+
+        def work(progress):
+            s = cached if cached is not None else uncertainty.run(snap, SAMPLES, SEED, progress)
+            if plan is not None:
+                res = uncertainty.plan_check(snap, s, plan, CONFIDENCE)
+            else:
+                res = uncertainty.check_from(snap, s, engine, dv, CONFIDENCE, uncertainty.commitments(snap))
+            return key, s, ask, res
+        label = f"checking at {CONFIDENCE:.0%} confidence" + ("" if cached is not None else " (sampling the ledger)")
+        self.start_work(work, self._confidence_done, label, failed=self._confidence_failed)
+
+    def _confidence_done(self, value) -> None:
+        key, s, ask, res = value
+        self._samples = (key, s)
+        if self.result is not None and ask == self._ask:
+            self.confidence = res
+            self.query_one("#conf-result", Static).update(confidence_text(res))
+
+    def _confidence_failed(self, message: str) -> None:
+        self.query_one("#conf-result", Static).update(Text(f"✗ no verdict at {CONFIDENCE:.0%}: {message}",
+                                                           style="bold red"))
 
     def action_close(self) -> None:
+        self.stop_work()
         self.dismiss(self.result)

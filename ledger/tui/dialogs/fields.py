@@ -41,10 +41,15 @@ def amount(text: str, allowed=("dv", "duration", "propellant"), required: bool =
     return None, f"'{text}' is not a {' or '.join(allowed)} ({hint})"
 
 
-def quantity(text: str, dimension: str, where: str, *, signed: bool = False, required: bool = True) -> Parsed:
+def quantity(text: str, dimension: str, where: str, *, signed: bool = False, required: bool = True,
+             unit_hint: str = "") -> Parsed:
+    """SI value of a quantity; with ``unit_hint`` a bare number is refused (a pressure typed as '7.1'
+    would otherwise be read as 7.1 Pa)."""
     text = (text or "").strip()
     if not text:
         return None, ("required" if required else None)
+    if unit_hint and _BARE.match(text):
+        return None, f"add a unit ({unit_hint})"
     try:
         return parse_quantity(text, dimension, where, signed=signed), None
     except InputError as exc:

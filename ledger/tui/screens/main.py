@@ -14,14 +14,16 @@ from textual.widgets import Input, Label, Static
 from ...services import browse, views
 from ...services.ledger import Snapshot
 from .. import actions, fmt
+from ..lows import panel_inputs
 from ..widgets.keybar import KeyBar
-from ..widgets.state import EngineTable, TankGauges, WatchList
+from ..widgets.state import EngineTable, TankGauges
 from ..widgets.grid import LedgerGrid
+from ..widgets.watch import WatchList
 from ..widgets.window import Window, cells, columns
 
-KIND_CYCLE = (None, "burn", "plan", "mass", "use", "withdraw", "correct")
-KEYS = [(a.key_display or a.key, a.label, f"screen.{a.name}") for a in actions.ACTIONS] + [
-    ("^p", "Commands", "app.command_palette")]
+KIND_CYCLE = (None, "burn", "plan", "mass", "use", "withdraw", "correct", "gauge", "approve", "handover")
+KEYS = [(a.key_display or a.key, a.label, f"screen.{a.name}", a.short) for a in actions.ACTIONS] + [
+    ("^p", "Commands", "app.command_palette", "Cmds")]
 SHORT_CAUTION = ("⚠ Decision support only: verify against the mission's flight-dynamics system of record, "
                  "its mission rules and the responsible engineers.")
 
@@ -33,6 +35,9 @@ class MainScreen(Screen):
     def __init__(self) -> None:
         super().__init__(id="main")
         self.snap: Snapshot | None = None
+        self.status: dict | None = None
+        self.approvals: dict[int, str] = {}
+        self.verified = False
         self.ix: browse.LogIndex | None = None
         self.window = Window()
         self.kind_filter: str | None = None
@@ -69,7 +74,8 @@ class MainScreen(Screen):
     def show(self, snap: Snapshot, ix: browse.LogIndex, verified: bool) -> None:
         """Redraw every panel from a new snapshot, keeping the ledger window's place and cursor."""
         self.snap, self.ix = snap, ix
-        st = views.status(snap)
+        self.status = st = views.status(snap)
+        self.verified = verified
         chain = "chain ✓" if snap.integrity is None and verified else "chain …" if snap.integrity is None \
             else "chain ✗ BROKEN"
         parts = [f"mass {st['mass_kg']:,.2f} kg", f"{st['entries']:,} entries", chain]
@@ -77,19 +83,35 @@ class MainScreen(Screen):
             parts.insert(0, f"⚠ {len(st['warnings'])} warning{'s' if len(st['warnings']) > 1 else ''}")
         parts += [f"{len(st['pending_plans'])} pending", f"last event {fmt.when(st['as_of']) or '-'} UTC", snap.path]
         self.masthead(st["craft"], parts)
-        self.query_one(TankGauges).show(browse.tanks(snap))
+        self.draw_state()
+        self.refill(keep_place=True)
+
+    def draw_state(self) -> None:
+        """Tanks, engines and watch list from the status and whatever the low-bound worker has so far."""
+        snap, st, lows = self.snap, self.status, self.app.lows
+        if snap is None:
+            return
+        tanks, engines, forecast, self.approvals = panel_inputs(snap, st, browse.tanks(snap), lows)
+        self.query_one(TankGauges).show(tanks)
         box = self.query_one("#tanks-box")
         box.border_title = "Tanks  " + fmt.legend(compact=box.size.width < 56)
-        self.query_one(EngineTable).show(list(_engine_rows(st)), st["reserves"])
+        self.query_one(EngineTable).show(engines, st["reserves"], forecast, lows.summary())
+        self.query_one("#engines-box").border_title = f"Engines · m/s · {lows.title()}"
         if snap.integrity is not None:
             chain = ("✗", f"BROKEN: {snap.integrity}", "bold red")
-        elif not verified:
+        elif not self.verified:
             chain = ("…", f"checking {len(snap.entries):,} links", "yellow")
         else:
             chain = ("✓", f"intact ({len(snap.entries):,} links)", "green")
         warnings = [w for w in st["warnings"] if not w.startswith("INTEGRITY")]
-        self.query_one(WatchList).show(chain, st["pending_plans"], warnings)
-        self.refill(keep_place=True)
+        self.query_one(WatchList).show(chain, st["pending_plans"], warnings, self.approvals)
+
+    def lows_changed(self) -> None:
+        """The low-bound worker moved on: redraw the state panels and the plan rows' approval states."""
+        before = dict(self.approvals)
+        self.draw_state()
+        if self.approvals != before:
+            self.draw_rows()
 
     def masthead(self, craft: str, parts: list[str]) -> None:
         """Title line: as many facts as fit, most important first (nothing cut mid-word)."""
@@ -108,7 +130,8 @@ class MainScreen(Screen):
         if self.snap is None:
             return
         table = self.query_one(LedgerGrid)
-        sel = browse.select(self.ix, [self.kind_filter] if self.kind_filter else None, self.find_text)
+        kinds = fmt.KIND_GROUPS.get(self.kind_filter, (self.kind_filter,)) if self.kind_filter else None
+        sel = browse.select(self.ix, kinds, self.find_text)
         if not keep_place:
             self.window.follow, self.window.anchor = True, None
         self.window.reselect(sel)
@@ -124,7 +147,8 @@ class MainScreen(Screen):
         rows = browse.rows(self.snap, self.ix, seqs)
         target = seqs.index(keep) if keep in seqs else len(seqs) - 1
         table.set_page([label for label, _ in columns(tank_ids, narrow)],
-                       [(str(r["id"]), cells(r, tank_ids, narrow)) for r in rows], target)
+                       [(str(r["id"]), cells(r, tank_ids, narrow, self.ix.by_seq[r["id"]].data,
+                                             self.approvals.get(r["id"]))) for r in rows], target)
         if seqs:
             self.window.cursor_seq = seqs[target]
         self.update_pager()
@@ -232,6 +256,18 @@ class MainScreen(Screen):
     def action_trend(self) -> None:
         self.app.open_trend()
 
+    def action_decide(self) -> None:
+        self.app.open_form("decide", self.selected())
+
+    def action_gauge(self) -> None:
+        self.app.open_form("gauge")
+
+    def action_rebaseline(self) -> None:
+        self.app.open_form("rebaseline", self.selected())
+
+    def action_handover(self) -> None:
+        self.app.open_handover()
+
     def action_detail(self) -> None:
         if self.selected() is not None:
             self.app.open_detail(self.selected())
@@ -243,6 +279,3 @@ class MainScreen(Screen):
         self.app.exit()
 
 
-def _engine_rows(st: dict):
-    for eid, e in st["engines"].items():
-        yield {"engine": eid, **e}

@@ -6,7 +6,7 @@ entry under the cursor; a reload keeps both.
 """
 from __future__ import annotations
 
-from typing import Any, Sequence
+from typing import Any, Mapping, Sequence
 
 from rich.text import Text
 
@@ -60,21 +60,43 @@ def columns(tank_ids: Sequence[str], narrow: bool = False) -> list[tuple[str, st
     return cols
 
 
-def cells(row: dict[str, Any], tank_ids: Sequence[str], narrow: bool = False) -> list[Any]:
-    """Table cells for one ``views.log`` row."""
+def status_text(row: dict[str, Any], data: Mapping[str, Any] | None = None, approval: str | None = None) -> str:
+    """The status column: plan state and approval, what a correction fixes, a gauge reading's difference
+    from the bookkeeping, which reading a re-baseline adopts; then superseded, late, plan link."""
+    data = data or {}
+    kind = row["kind"]
     status = ""
-    if row["kind"] == "plan":
+    if kind == "plan":
         status = row.get("state", "")
-    elif row["kind"] == "correct":
+        if status == "pending" and approval:
+            sym, words, _ = fmt.APPROVAL_TAG.get(approval, fmt.APPROVAL_TAG["none"])
+            status += f" {sym} {words}"
+    elif kind == "correct":
         status = f"fixes #{row.get('corrects')}"
-    elif row["kind"] == "withdraw":
-        status = ""
+    elif kind == "gauge" and data.get("difference_sigma") is not None:
+        status = f"{data['difference_sigma']:+.1f}σ " + ("⚠ BEYOND 3σ" if data.get("flagged") else "within 3σ")
+    elif kind == "rebaseline":
+        status = f"adopts #{row.get('gauge')}" + (" (forced)" if data.get("forced") else "")
+    elif kind == "handover" and data.get("window_start") is not None:
+        status = f"window from {fmt.when_t(float(data['window_start']))}"
     if row.get("superseded"):
         status = "superseded" if not status else status + " (superseded)"
     if row.get("late"):
         status = (status + " late").strip()
     if row.get("plan") is not None:
         status = (status + f" plan #{row['plan']}").strip()
+    return status
+
+
+def cells(row: dict[str, Any], tank_ids: Sequence[str], narrow: bool = False,
+          data: Mapping[str, Any] | None = None, approval: str | None = None) -> list[Any]:
+    """Table cells for one ``views.log`` row (``data``: the entry's stored fields, for the status)."""
+    status = status_text(row, data, approval)
+    amount = row.get("amount") or ""
+    if data and row["kind"] == "gauge" and data.get("propellant_kg") is not None:  # ± rather than +-
+        amount = f"{data.get('tank')} {data['propellant_kg']:,.2f}±{data.get('sigma_kg', 0.0):,.2f} kg"
+    elif data and row["kind"] == "rebaseline" and data.get("remaining_kg") is not None:
+        amount = f"{data.get('tank')} ≡ {data['remaining_kg']:,.2f} kg"
     drawn = row.get("drawn_kg") or {}
     mass = row.get("mass_after_kg")
     out: list[Any] = [
@@ -82,12 +104,13 @@ def cells(row: dict[str, Any], tank_ids: Sequence[str], narrow: bool = False) ->
         fmt.kind_text(row["kind"], row.get("superseded", False)),
         fmt.when(row.get("at"))[5:] if narrow else fmt.when(row.get("at")),
         row.get("engine") or "",
-        Text(row.get("amount") or "", justify="right"),
+        Text(amount, justify="right"),
         Text(fmt.kg(mass, 2) if mass is not None else "", justify="right"),
     ]
+    adjusted = row.get("adjusted_kg") or {}
     for t in tank_ids:
-        x = drawn.get(t)
-        out.append(Text(f"{-x:,.3f}" if x else "", justify="right"))
-    note = row.get("reason") if row["kind"] == "correct" else row.get("note")
+        x, adj = drawn.get(t), adjusted.get(t)
+        out.append(Text(f"{-x:,.3f}" if x else f"{adj:+,.3f}" if adj else "", justify="right"))
+    note = row.get("reason") if row["kind"] in ("correct", "rebaseline") and row.get("reason") else row.get("note")
     out += [status, row.get("by") or "", (note or "").replace("\n", " ")[:60]]
     return out

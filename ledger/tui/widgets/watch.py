@@ -1,0 +1,94 @@
+"""The watch list: chain integrity, pending plans with their approval state, and warnings."""
+from __future__ import annotations
+
+import textwrap
+from datetime import datetime, timezone
+from typing import Any, Mapping, Sequence
+
+from rich.text import Text
+from textual.widget import Widget
+
+from .. import fmt
+
+
+def approval_text(state: str | None, wide: bool) -> Text:
+    """Glyph and word(s) for a plan's approval state (the glyph alone never carries it)."""
+    sym, words, style = fmt.APPROVAL_TAG.get(state or "none", fmt.APPROVAL_TAG["none"])
+    if not wide:
+        words = {"approval stale": "stale", "approved, re-checking": "approved…",
+                 "approved, not re-checked": "approved?"}.get(
+            words, words)
+    return Text(f"{sym} {words}", style=style)
+
+
+def plan_lines(plans: Sequence[Mapping[str, Any]], approvals: Mapping[int, str], width: int, now: str
+               ) -> list[Text]:
+    """Pending plans in the richest wording that fits ``width`` for all of them (one wording for the list):
+    time, lateness, approval state."""
+    def wordings(p: Mapping[str, Any]) -> list[Text]:
+        late = p["at"][:16] < now
+        when = fmt.when(p["at"])
+        tries = [
+            (f"◇ #{p['id']} PLAN {p['engine']} {p['dv_m_s']:,.2f} m/s at {when}", " overdue", True),
+            (f"◇ #{p['id']} {p['engine']} {p['dv_m_s']:,.2f} m/s {when}", " overdue", True),
+            (f"◇ #{p['id']} {p['engine']} {p['dv_m_s']:,.2f} m/s {when[5:10]}", " late", False),
+            (f"◇ #{p['id']} {p['engine']} {p['dv_m_s']:,.1f} m/s {when[5:10]}", " late", False),
+            (f"#{p['id']} {p['engine']} {p['dv_m_s']:,.1f} m/s {when[5:10]}", " late", False),
+        ]
+        out = []
+        for text, late_word, wide in tries:
+            line = Text(text + (late_word if late else ""), style="yellow")
+            line.append(" ")
+            line.append_text(approval_text(approvals.get(p["id"]), wide))
+            out.append(line)
+        return out
+
+    options = [wordings(p) for p in plans]
+    for i in range(5):
+        if all(o[i].cell_len <= width for o in options):
+            return [o[i] for o in options]
+    return [o[-1] for o in options]
+
+
+class WatchList(Widget):
+    """Chain integrity, pending plans and warnings: what needs a look."""
+
+    def __init__(self, **kw):
+        super().__init__(**kw)
+        self.chain = ("…", "checking the chain", "yellow")
+        self.pending: Sequence[dict[str, Any]] = ()
+        self.approvals: Mapping[int, str] = {}
+        self.warnings: Sequence[str] = ()
+
+    def show(self, chain: tuple[str, str, str], pending, warnings, approvals: Mapping[int, str] | None = None) -> None:
+        """``approvals``: plan id -> approved | rejected | stale | none | approved? (not yet re-checked)."""
+        self.chain, self.pending, self.warnings = chain, pending, warnings
+        self.approvals = approvals or {}
+        self.refresh(layout=True)
+
+    def _warning_lines(self, width: int) -> list[str]:
+        """Wide panels wrap each warning (they carry figures); narrow ones keep one line each."""
+        if width < 50:
+            return [f"⚠ {w}" for w in self.warnings]
+        out = []
+        for w in self.warnings:
+            out += textwrap.wrap(f"⚠ {w}", width=max(10, width), subsequent_indent="  ")
+        return out
+
+    def get_content_height(self, container, viewport, width: int) -> int:
+        return 1 + max(1, len(self.pending)) + max(1, len(self._warning_lines(width)))
+
+    def render(self) -> Text:
+        w = max(10, self.size.width)
+        lines = []
+        sym, text, style = self.chain
+        lines.append(Text(f"{sym} chain {text}", style=style))
+        if not self.pending:
+            lines.append(Text("◇ no pending plans", style="grey62"))
+        now = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M")
+        lines += plan_lines(self.pending, self.approvals, w, now)
+        if not self.warnings:
+            lines.append(Text("✓ no warnings", style="green"))
+        for line in self._warning_lines(w):
+            lines.append(Text(line, style="dark_orange"))
+        return Text("\n").join(fmt.fit(line, w) for line in lines)

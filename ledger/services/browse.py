@@ -16,7 +16,7 @@ from ..errors import InputError
 from .ledger import Snapshot
 from .timefmt import iso
 from . import views
-from .views import CAUTION, _amount
+from .views import _amount
 
 
 @dataclass(frozen=True)
@@ -214,8 +214,7 @@ def check_plan(snap: Snapshot, plan_seq: int) -> dict[str, Any]:
     plan = next((p for p in snap.resolved.pending if p.seq == plan_seq), None)
     if plan is None:
         raise InputError(f"entry {plan_seq} is not a pending plan")
-    others = [(p.get("engine"), float(p.get("dv"))) for p in snap.resolved.pending if p.seq != plan_seq]
-    return _check(snap, plan.get("engine"), float(plan.get("dv")), others)
+    return views.check(snap, plan.get("engine"), float(plan.get("dv")), exclude_plan=plan_seq)
 
 
 def check(snap: Snapshot, engine: str, dv: float) -> dict[str, Any]:
@@ -223,16 +222,3 @@ def check(snap: Snapshot, engine: str, dv: float) -> dict[str, Any]:
     if engine not in snap.craft.engine_ids:
         raise InputError(f"unknown engine '{engine}' (engines: {', '.join(snap.craft.engine_ids)})")
     return views.check(snap, engine, dv)
-
-
-def _check(snap: Snapshot, engine: str, dv: float, plans) -> dict[str, Any]:
-    res = cap.check(snap.craft, snap.state, engine, dv, plans)
-    return {
-        "engine": res.engine, "dv_m_s": res.dv_m_s,
-        "verdict": "feasible" if res.feasible else "infeasible",
-        "propellant_kg": res.propellant_kg, "propellant_by_tank_kg": res.propellant_by_tank,
-        "dv_free_after_m_s": res.dv_free_after_m_s, "limiting_tank": res.limiting_tank,
-        "margin_after_reserves_kg": res.margin_by_tank,
-        "commitments": [{"engine": e, "dv_m_s": d} for e, d in res.commitments],
-        "reason": res.reason, "caution": CAUTION,
-    }

@@ -90,6 +90,19 @@ def _plans(snap: Snapshot, status: Mapping[str, Any], end: float) -> tuple[list[
     return rows, warnings
 
 
+def _status_with_bounds(snap) -> dict[str, Any]:
+    """Status with its low bounds and approval states (the Monte Carlo, cached by chain head); the plain
+    status with a warning if the sampling cannot run, so a handover is never blocked by it."""
+    from . import uncertainty  # noqa: PLC0415
+
+    try:
+        return uncertainty.status_with_confidence(snap)
+    except (LedgerError, ValueError, FloatingPointError) as exc:
+        status = views.status(snap)
+        status["warnings"] = list(status["warnings"]) + [f"low bounds not computed: {exc}"]
+        return status
+
+
 def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, since: str | float | None = None,
              now: float | None = None) -> dict[str, Any]:
     """The handover as plain data; reads only. ``now`` closes the window (default: the clock)."""
@@ -104,7 +117,7 @@ def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, sinc
     if head_seq != len(snap.entries):  # another process appended between the two reads: read both again
         snap = ledger.snapshot()
         head_seq, head_hash = ledger.file.head()
-    status = views.status(snap)
+    status = _status_with_bounds(snap)
     win = window(snap, since, end)
     prev = win["previous"]["id"] if win["previous"] else None
     burns, others = entry_rows(snap, win["start_t"], end, skip=prev)

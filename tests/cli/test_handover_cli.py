@@ -95,3 +95,11 @@ def test_recording_writes_a_real_backup_and_head_record(two_shifts, capsys):
     newest = backups[0]  # newest first
     assert LedgerFile(newest).verify() is None
     assert os.path.exists(path + ".head")
+
+
+def test_the_state_now_carries_low_bounds(two_shifts, capsys):
+    # No stand-ins: the handover runs the Monte Carlo (cached by chain head) for the state's low bounds.
+    path = two_shifts.ledger.path
+    assert main(["--ledger", path, "handover", "--from", "Bo", "--to", "Cy", "--format", "text", "--no-record"]) == 0
+    out = capsys.readouterr().out
+    assert "usable low kg" in out and "dv free low m/s" in out and "Low bounds at 99% confidence" in " ".join(out.split())

@@ -8,7 +8,6 @@ from __future__ import annotations
 import json
 import os
 import sys
-import tempfile
 
 from ..errors import InputError, StoreError
 from ..services import handover
@@ -44,21 +43,6 @@ def _out_path(path: str | None) -> str | None:
     return path
 
 
-def _write(path: str, text: str) -> None:
-    """Whole file or nothing: temporary file in the same folder, fsync, rename."""
-    fd, tmp = tempfile.mkstemp(prefix=".handover-", dir=os.path.dirname(path))
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-
-
 def render(report: dict, fmt: str) -> str:
     if fmt == "json":
         return json.dumps(report, indent=2, allow_nan=False, default=str) + "\n"
@@ -80,7 +64,7 @@ def cmd_handover(args) -> int:
         sys.stdout.flush()
     else:
         try:
-            _write(out, text)
+            handover.write_report(out, text)
         except OSError as exc:
             done = f"handover recorded as entry {rec['entry']}, but " if rec.get("recorded") else ""
             raise StoreError(f"{done}writing {out} failed: {exc.strerror or exc}") from None

@@ -7,6 +7,8 @@ ended) and then writes a backup that holds it.
 """
 from __future__ import annotations
 
+import os
+import tempfile
 from typing import Any, Mapping
 
 from ..core.entries import HANDOVER, Entry
@@ -162,3 +164,26 @@ def record(ledger: Ledger, report: dict[str, Any], *, note: str | None = None) -
     extra = [backup["warning"]] if backup["warning"] else []
     report["warnings"] = list(report["warnings"]) + list(new_warnings) + extra
     return report
+
+
+def write_report(path: str, text: str) -> str:
+    """Temporary file in the target folder, fsync, rename: a reader never sees half a report. Returns the
+    absolute path; raises OSError with the reason (the folder is missing, it is a folder, no permission)."""
+    path = os.path.abspath(os.path.expanduser(path))
+    folder = os.path.dirname(path)
+    if not os.path.isdir(folder):
+        raise OSError(f"folder {folder} does not exist")
+    if os.path.isdir(path):
+        raise OSError(f"{path} is a folder")
+    fd, tmp = tempfile.mkstemp(prefix=".handover-", dir=folder)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+    return path

@@ -1,8 +1,6 @@
 """Export the handover report to a file as text, Markdown or HTML (whole file or nothing)."""
 from __future__ import annotations
 
-import os
-import tempfile
 from typing import Any
 
 from textual.app import ComposeResult
@@ -11,32 +9,10 @@ from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Select, Static
 
+from ...services.handover import write_report as write_file
 from ...services.views import CAUTION
 
 FORMATS = [("text  (80 columns)", "text"), ("md  (Markdown)", "md"), ("html  (one file, prints on A4)", "html")]
-
-
-def write_file(path: str, text: str) -> str:
-    """Temporary file in the target folder, fsync, rename: a reader never sees half a report. Returns the
-    absolute path; raises OSError with the reason (the folder is missing, it is a folder, no permission)."""
-    path = os.path.abspath(os.path.expanduser(path))
-    folder = os.path.dirname(path)
-    if not os.path.isdir(folder):
-        raise OSError(f"folder {folder} does not exist")
-    if os.path.isdir(path):
-        raise OSError(f"{path} is a folder")
-    fd, tmp = tempfile.mkstemp(prefix=".handover-", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
 
 
 class ExportDialog(ModalScreen[str | None]):

@@ -116,7 +116,7 @@ def row(snap: Snapshot, ix: LogIndex, seq: int) -> dict[str, Any]:
         key_seq = root
     out.update(at=iso(shown.at), note=shown.note if e.kind != CORRECT else e.note,
                engine=shown.get("engine"), amount=_amount(shown.data))
-    out["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > 3600.0
+    out["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > views.LATE_AFTER_S
     if e.kind in (GAUGE, REBASELINE):
         out.update(tank=e.get("tank"), reason=e.get("reason") or None)
         if e.kind == REBASELINE:

@@ -113,67 +113,11 @@ def _amount(data) -> str:
     return ""
 
 
-def _roots(snap: Snapshot) -> dict[int, int]:
-    """Correction seq -> seq of the original entry its chain of corrections leads to."""
-    by_seq = {e.seq: e for e in snap.entries}
-    roots = {}
-    for e in snap.entries:
-        if e.kind == CORRECT:
-            r = int(e.data["entry"])
-            while by_seq[r].kind == CORRECT:
-                r = int(by_seq[r].data["entry"])
-            roots[e.seq] = r
-    return roots
-
-
 def log(snap: Snapshot) -> list[dict[str, Any]]:
     """Every entry in replay order. A corrected entry keeps its original values, marked superseded; the
-    latest correction of it stands where the corrected event replays and carries its effect."""
-    rep, events = snap.replay, snap.resolved.events
-    effect = {ev.seq: i for i, ev in enumerate(events)}
-    roots = _roots(snap)
-    last_fix: dict[int, int] = {}
-    for c, r in roots.items():
-        last_fix[r] = max(c, last_fix.get(r, 0))
-    tank_ids = snap.craft.tank_ids
-    rows = []
-    for e in snap.entries:
-        shown = e
-        row: dict[str, Any] = {"id": e.seq, "kind": e.kind, "recorded": iso(e.recorded), "by": e.by,
-                               "superseded": e.seq in snap.resolved.superseded or e.seq in last_fix}
-        carrier = e.seq not in last_fix
-        if e.kind == CORRECT:
-            root = roots[e.seq]
-            carrier = last_fix[root] == e.seq
-            row.update(corrects=e.data.get("entry"), reason=e.data.get("reason"),
-                       changes=", ".join(f"{k}={v}" for k, v in e.data.get("changes", {}).items()))
-            shown = snap.resolved.effective[root] if carrier else e
-            row["applies_to_kind"] = snap.resolved.effective[root].kind
-            key_seq = root
-        else:
-            key_seq = e.seq
-        row.update(at=iso(shown.at), note=shown.note if e.kind != CORRECT else e.note,
-                   engine=shown.get("engine"), amount=_amount(shown.data))
-        row["late"] = e.kind in (BURN, USE, MASS) and e.recorded - e.at > LATE_AFTER_S
-        if e.kind in (GAUGE, REBASELINE):
-            row.update(tank=e.get("tank"), reason=e.get("reason") or None)
-            if e.kind == REBASELINE:
-                row["gauge"] = e.get("gauge")
-        if shown.get("plan") is not None and e.kind != CORRECT:
-            row["plan"] = shown.get("plan")
-        if e.kind == PLAN:
-            row["state"] = ("executed" if e.seq in snap.resolved.executed_by else
-                            "withdrawn" if e.seq in snap.resolved.withdrawn else "pending")
-        i = effect.get(key_seq) if carrier else None
-        if i is not None:
-            row["mass_after_kg"] = float(rep.mass_after[i])
-            row["propellant_kg"] = float(rep.propellant[i])
-            row["dv_m_s"] = float(rep.dv[i])
-            row["drawn_kg"] = {t: float(rep.drawn[i, k]) for k, t in enumerate(tank_ids) if rep.drawn[i, k] != 0}
-            if rep.adjusted is not None and rep.adjusted[i].any():
-                row["adjusted_kg"] = {t: float(rep.adjusted[i, k]) for k, t in enumerate(tank_ids)
-                                      if rep.adjusted[i, k] != 0}
-        row["_order"] = (shown.at, e.seq)
-        rows.append(row)
-    rows.sort(key=lambda r: r.pop("_order"))
-    return rows
+    latest correction of it stands where the corrected event replays and carries its effect. The rows
+    are the console's (``browse``), built for the whole ledger."""
+    from .browse import index, rows  # noqa: PLC0415 - browse builds on this module
+
+    ix = index(snap)
+    return rows(snap, ix, ix.order)

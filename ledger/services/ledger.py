@@ -15,7 +15,7 @@ from ..core.replay import Replay, replay
 from ..errors import InputError, StoreError
 from ..store.chain import Break, verify_chain
 from ..store.ledgerfile import LedgerFile, ordered
-from .records import clean_text, entry_from_record, make_record, validate_data
+from .records import clean_text, entries_from_records, entry_from_record, make_record, validate_data
 from .timefmt import iso, now
 
 CORRECTABLE = ("at", "note", "engine", "dv", "duration", "propellant", "delta", "sigma")
@@ -85,7 +85,7 @@ def _warnings(craft: Craft, events: Sequence[Entry], rep: Replay, state: cap.Sta
 def snapshot_from(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]],
                   integrity: Break | None) -> Snapshot:
     craft = craft_from_dict(meta["craft"])
-    entries = tuple(entry_from_record(r) for r in records)
+    entries = tuple(entries_from_records(records))
     resolved = resolve(entries)
     rep = replay(craft, resolved.events)
     state = cap.State(rep.mass_kg, rep.remaining_kg)

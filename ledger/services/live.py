@@ -23,7 +23,7 @@ from ..core.replay import Replay, replay
 from ..errors import StoreError
 from ..store.chain import Break, digest
 from .ledger import Ledger, Snapshot, _warnings
-from .records import entry_from_record
+from .records import entries_from_records
 
 
 def file_key(path: str) -> tuple[int, int, int] | None:
@@ -120,7 +120,7 @@ class LiveLedger(Ledger):
             self._records, self._entries = [], []
             self._chain = ChainCheck(meta)
             m = 0
-        new = [entry_from_record(r) for r in records[m:]]
+        new = entries_from_records(records[m:])
         self._entries.extend(new)
         self._records = list(records)
         integrity = self._chain.feed(self._records) if verify else self._chain.brk

@@ -3,8 +3,11 @@ from __future__ import annotations
 
 import getpass
 import math
+import warnings
 from datetime import datetime
-from typing import Any, Mapping
+from typing import Any, Mapping, Sequence
+
+import numpy as np
 
 from ..core.craft import Craft
 from ..core.entries import (AMOUNT_FIELDS, APPROVE, BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, REJECT,
@@ -30,6 +33,30 @@ def _epoch(text: str) -> float:
 def entry_from_record(rec: Mapping[str, Any]) -> Entry:
     return Entry(rec["seq"], rec["kind"], _epoch(rec["at"]), _epoch(rec["recorded"]), rec.get("by", ""),
                  rec.get("note", ""), rec.get("data") or {})
+
+
+def _epochs(texts: list[str]) -> list[float]:
+    """Many stored times at once: numpy parses the 'Z' form ``timefmt.iso`` writes in one C loop, a third
+    of the one-by-one cost; any other form (an offset, from an older writer) goes one by one."""
+    if all(type(t) is str and t.endswith("Z") for t in texts):
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("error")  # numpy warns (not fails) on an offset: take the slow path
+                micro = np.array([t[:-1] for t in texts], dtype="datetime64[us]").astype(np.int64)
+        except (ValueError, Warning):
+            pass
+        else:
+            return [m / 1_000_000 for m in micro.tolist()]  # int/int, as datetime.timestamp(): the same floats
+    return [_epoch(t) for t in texts]
+
+
+def entries_from_records(records: Sequence[Mapping[str, Any]]) -> list[Entry]:
+    """``entry_from_record`` over a whole ledger: what every read of a large ledger pays first."""
+    ats = _epochs([r["at"] for r in records])
+    logged = _epochs([r["recorded"] for r in records])
+    make = tuple.__new__  # Entry's fields in order, without its Python-level constructor per entry
+    return [make(Entry, (r["seq"], r["kind"], a, w, r.get("by", ""), r.get("note", ""), r.get("data") or {}))
+            for r, a, w in zip(records, ats, logged)]
 
 
 def clean_text(value: str | None, where: str) -> str:
@@ -238,4 +265,4 @@ def make_record(kind: str, at: float, recorded: float, by: str | None, note: str
             "by": clean_text(by, "--by") or default_user(), "note": clean_text(note, "--note"), "data": dict(data)}
 
 
-__all__ = ["entry_from_record", "validate_data", "make_record", "clean_text", "default_user", "CORRECT"]
+__all__ = ["entry_from_record", "entries_from_records", "validate_data", "make_record", "clean_text", "default_user", "CORRECT"]

@@ -7,6 +7,7 @@ previous version (kept as a hard link until then) is put back, so a failed write
 file behind. The low-level steps are module functions so the fault tests can inject ENOSPC or EIO into
 exactly these calls. Any OSError becomes one StoreError line. The parsed document is cached while the
 file's (device, inode, size, mtime, ctime) are unchanged, because every TinyDB operation reads the whole file.
+TinyDB's Storage class on top of these functions is ``store.tinystore`` (only writes need TinyDB).
 """
 from __future__ import annotations
 
@@ -18,12 +19,11 @@ import tempfile
 from typing import Any
 
 import orjson
-from tinydb.storages import Storage
-
 from ..errors import StoreError
 
-_CACHE: dict[str, tuple[tuple[int, ...], dict[str, Any], str]] = {}
-"""path -> (inode, size, mtime key; parsed document; SHA-256 of the file's bytes)."""
+_CACHE: dict[str, list[Any]] = {}
+"""path -> [file key (device, inode, size, mtime, ctime); parsed document; the file's bytes, or their SHA-256
+once asked for]. The digest is taken on demand: the console's appends never need it, a status read does."""
 TMP_SUFFIX = ".propledger-tmp"
 
 
@@ -150,7 +150,7 @@ def read_document(path: str) -> dict[str, Any]:
     except OSError as exc:
         raise StoreError(f"{path}: cannot read it ({_reason(exc)})") from None
     data = decode(raw, path)
-    _CACHE[path] = (_key(st), data, hashlib.sha256(raw).hexdigest())
+    _CACHE[path] = [_key(st), data, raw]
     return dict(data)
 
 
@@ -158,9 +158,13 @@ def content_digest(path: str) -> str | None:
     """SHA-256 of the bytes last read or written at ``path``, if the file has not changed since."""
     hit = _CACHE.get(path)
     try:
-        return hit[2] if hit and hit[0] == _key(os.stat(path)) else None
+        if not hit or hit[0] != _key(os.stat(path)):
+            return None
     except OSError:
         return None
+    if isinstance(hit[2], bytes):
+        hit[2] = hashlib.sha256(hit[2]).hexdigest()
+    return hit[2]
 
 
 # --- writing -----------------------------------------------------------------------------------
@@ -223,20 +227,4 @@ def _keep_previous(path: str, folder: str) -> str | None:
 def write_document(path: str, data: dict[str, Any], *, exclusive: bool = False) -> None:
     payload = encode(data)
     write_bytes(path, payload, exclusive=exclusive)
-    _CACHE[path] = (_key(os.stat(path)), data, hashlib.sha256(payload).hexdigest())
-
-
-class DurableStorage(Storage):
-    """TinyDB's storage seam (read, write) on top of ``read_document`` / ``write_document``."""
-
-    def __init__(self, path: str):
-        self.path = path
-
-    def read(self) -> dict[str, Any] | None:
-        return read_document(self.path)
-
-    def write(self, data: dict[str, Any]) -> None:
-        write_document(self.path, data)
-
-    def close(self) -> None:
-        pass
+    _CACHE[path] = [_key(os.stat(path)), data, payload]

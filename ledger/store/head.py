@@ -92,9 +92,9 @@ def check_heads(ledger_path: str, meta: Mapping[str, Any], entries: Mapping[str,
                 "the ledger file was replaced or rewritten")
         if head.seq == 0:
             continue
-        last = max((int(k) for k in entries), default=0)
         rec = entries.get(str(head.seq))
         if rec is None:
+            last = max(map(int, entries), default=0)
             raise HeadMismatch(
                 f"{ledger_path}: ends at entry {last} but the head record {head.source}{when} shows entry "
                 f"{head.seq} existed: entries were cut off")

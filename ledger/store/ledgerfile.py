@@ -10,15 +10,11 @@ file is never written over, and its error names the newest good backup and the r
 from __future__ import annotations
 
 import os
-import socket
 import threading
 from contextlib import contextmanager
 from datetime import datetime, timezone
 from typing import Any, Iterator, Mapping
 
-from filelock import FileLock, Timeout
-from tinydb import TinyDB
-from tinydb.table import Document
 
 from .. import __version__
 from ..errors import StoreError
@@ -31,15 +27,20 @@ SCHEMA = 1
 META, ENTRIES = "meta", "entries"
 LOCK_TIMEOUT_S = 10.0
 
-_LOCKS: dict[str, FileLock] = {}
+_LOCKS: dict[str, Any] = {}
 _LOCKS_GUARD = threading.Lock()
+_LAID_OUT: dict[str, Any] = {}
+"""path -> the entries table (a parsed object, held) whose layout was last checked: a re-read of an
+unchanged file, served from the storage's cache, is the same object and is not walked again."""
 
 
-def lock_for(path: str) -> FileLock:
+def lock_for(path: str):
     """The one lock object per ledger in this process (re-entrant; flock, freed by the kernel on death)."""
     key = os.path.abspath(path) + ".lock"
     with _LOCKS_GUARD:
         if key not in _LOCKS:
+            from filelock import FileLock  # noqa: PLC0415 - reads take no lock: keep it off their path
+
             _LOCKS[key] = FileLock(key, mode=0o600)
         return _LOCKS[key]
 
@@ -66,6 +67,8 @@ def check_layout(doc: Mapping[str, Any], path: str) -> None:
     if schema > SCHEMA:
         raise StoreError(f"{path}: written by a newer propledger (schema {schema}, this one reads up to "
                          f"{SCHEMA}); upgrade propledger to open it; nothing was changed")
+    if _well_numbered(table):
+        return
     for key, rec in table.items():
         if not (key.isascii() and key.isdigit() and key[0] != "0"):
             raise Damaged(f"{path}: entry id {key[:20]!r} is not a sequence number")
@@ -73,17 +76,52 @@ def check_layout(doc: Mapping[str, Any], path: str) -> None:
             raise Damaged(f"{path}: entry {key} is malformed (not a record with its own sequence number and hash)")
 
 
+_IN_ORDER: dict[int, tuple[Any, int, bool]] = {}
+"""id(table) -> (the table, held; its size; whether its keys are "1".."N" in order), for the last few tables
+read or written: the head and the ordered records are then had without sorting 20k keys on every call."""
+
+
+def in_order(table: Mapping[str, Any]) -> bool:
+    """Are the table's keys "1".."N" in that order (as every append writes them)?"""
+    hit = _IN_ORDER.get(id(table))
+    if hit is not None and hit[0] is table and hit[1] == len(table):
+        return hit[2]
+    ok = list(table) == [str(i) for i in range(1, len(table) + 1)]
+    _remember_order(table, ok)
+    return ok
+
+
+def _remember_order(table: Mapping[str, Any], ok: bool) -> None:
+    if len(_IN_ORDER) >= 4:
+        _IN_ORDER.clear()
+    _IN_ORDER[id(table)] = (table, len(table), ok)
+
+
+def _well_numbered(table: Mapping[str, Any]) -> bool:
+    """The common case in one pass: keys "1".."N" in order, each a record carrying that seq and a hash.
+    When it fails, the full loop in ``check_layout`` finds and names the first bad entry."""
+    if not in_order(table):
+        return False
+    try:
+        return all(type(rec) is dict and rec["seq"] == i and type(rec["hash"]) is str
+                   for i, rec in enumerate(table.values(), 1))
+    except (KeyError, TypeError):
+        return False
+
+
 def head_of(doc: Mapping[str, Any]) -> tuple[int, str]:
     """(sequence, hash) of the last link of the chain."""
     table = doc[ENTRIES]
     if not table:
         return 0, doc[META]["1"]["hash"]
-    last = table[str(max(int(k) for k in table))]
+    last = table[next(reversed(table))] if in_order(table) else table[str(max(map(int, table)))]
     return int(last["seq"]), str(last["hash"])
 
 
 def ordered(doc: Mapping[str, Any]) -> list[dict[str, Any]]:
     table = doc[ENTRIES]
+    if in_order(table):
+        return list(table.values())
     return [table[k] for k in sorted(table, key=int)]
 
 
@@ -94,7 +132,6 @@ class LedgerFile:
         self.path = os.path.abspath(path)
         self.lock_timeout = lock_timeout
         self.notices: list[str] = []
-        self._checked: Any = None
 
     # --- creation ----------------------------------------------------------------------------
     @classmethod
@@ -136,9 +173,10 @@ class LedgerFile:
     def check(self, doc: Mapping[str, Any]) -> None:
         """Layout and recorded head; raises StoreError (with the recovery hint when a backup would help)."""
         try:
-            if doc.get(ENTRIES) is not self._checked or doc.get(ENTRIES) is None:
+            table = doc.get(ENTRIES)
+            if table is None or _LAID_OUT.get(self.path) is not table:
                 check_layout(doc, self.path)
-                self._checked = doc[ENTRIES]
+                _LAID_OUT[self.path] = table
             check_heads(self.path, doc[META]["1"], doc[ENTRIES])
         except (Damaged, HeadMismatch) as exc:
             raise type(exc)(f"{exc}. {self.hint()}") from None
@@ -179,6 +217,8 @@ class LedgerFile:
     @contextmanager
     def locked(self) -> Iterator[None]:
         """Hold the ledger's exclusive lock (re-entrant) around a whole read-check-write."""
+        from filelock import Timeout  # noqa: PLC0415
+
         lock = lock_for(self.path)
         try:
             lock.acquire(timeout=self.lock_timeout)
@@ -202,7 +242,15 @@ class LedgerFile:
         with self.locked():
             for p in (self.path, *head_paths(self.path)):
                 durable.clean_temporaries(p)
-            seq, prev = head_of(self.document())
+            doc = self.document()
+            seq, prev = head_of(doc)
+            import socket  # noqa: PLC0415 - writes only
+
+            from tinydb import TinyDB  # noqa: PLC0415
+            from tinydb.table import Document  # noqa: PLC0415
+
+            from .tinystore import DurableStorage  # noqa: PLC0415
+
             host, program = socket.gethostname(), f"propledger {__version__}"
             stored_all = []
             for record in records:
@@ -211,12 +259,18 @@ class LedgerFile:
                 stored.update(seq=seq, prev=prev, host=host, program=program)
                 stored["hash"] = prev = digest(stored, new=True)
                 stored_all.append(stored)
-            db = TinyDB(self.path, storage=durable.DurableStorage)
+            db = TinyDB(self.path, storage=DurableStorage)
             try:
                 db.table(ENTRIES, cache_size=0).insert_multiple(
                     Document(s, doc_id=s["seq"]) for s in stored_all)
             finally:
                 db.close()
+            # The table just written is the checked one plus entries built here, numbered on from its
+            # last: no need to walk it again.
+            was_in_order = in_order(doc[ENTRIES])
+            written = durable.read_document(self.path)[ENTRIES]
+            _LAID_OUT[self.path] = written
+            _remember_order(written, was_in_order)
             return stored_all
 
     # --- schema migration --------------------------------------------------------------------

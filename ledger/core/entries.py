@@ -68,6 +68,11 @@ class Resolved:
     decisions: Mapping[int, Entry] = field(default_factory=dict)
     """plan seq -> the latest approve or reject entry naming it (a later decision replaces an earlier one)."""
 
+    @property
+    def last_event_at(self) -> float | None:
+        """When the latest replayed event happened (events are in replay order), None before any."""
+        return self.events[-1].at if self.events else None
+
 
 def _root(seq: int, by_seq: Mapping[int, Entry]) -> int:
     """Follow a chain of corrections back to the original entry."""

@@ -32,7 +32,7 @@ def _life_row(life: fc.Lifetime) -> dict[str, Any]:
 def reference_time(snap: Snapshot, now: float | None = None) -> tuple[float, str]:
     """The time the forecast counts from, and why."""
     if snap.resolved.events:
-        return max(e.at for e in snap.resolved.events), "last recorded event"
+        return snap.resolved.last_event_at, "last recorded event"
     return (clock() if now is None else now), "now (no event recorded yet)"
 
 

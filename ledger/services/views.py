@@ -26,7 +26,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
         "craft": craft.name,
         "ledger": snap.path,
         "entries": len(snap.entries),
-        "as_of": iso(max((e.at for e in snap.resolved.events), default=0.0)) if snap.resolved.events else None,
+        "as_of": iso(snap.resolved.last_event_at) if snap.resolved.events else None,
         "mass_kg": snap.state.mass_kg,
         "dry_mass_kg": craft.dry_mass_kg,
         "tanks": {

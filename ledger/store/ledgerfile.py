@@ -49,6 +49,15 @@ def utc_stamp() -> str:
     return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
 
 
+def prepare_writes() -> None:
+    """Import what a write needs and a read does not (a program that will write can do this early)."""
+    import socket  # noqa: F401, PLC0415
+
+    import filelock  # noqa: F401, PLC0415
+
+    from . import tinystore  # noqa: F401, PLC0415
+
+
 class Damaged(StoreError):
     """The file at the ledger path cannot be used as it is; restoring a backup is the remedy."""
 

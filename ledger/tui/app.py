@@ -33,6 +33,16 @@ FORMS = {"burn": BurnForm, "plan": PlanForm, "mass": MassForm, "use": UseForm, "
 NEEDS_PENDING = ("withdraw", "decide")
 
 
+
+def warm_up_forms() -> None:
+    """Load what the forms and the first write need (pint's unit registry, the lock and TinyDB), off the
+    screen's thread, so the first entry is not slower than the next ones."""
+    from ..store.ledgerfile import prepare_writes  # noqa: PLC0415
+    from ..units import registry  # noqa: PLC0415
+
+    prepare_writes()
+    registry()
+
 class LedgerConsole(App):
     CSS_PATH = "console.tcss"
     TITLE = "propledger"
@@ -53,8 +63,6 @@ class LedgerConsole(App):
     # --- opening ------------------------------------------------------------------------------------
     def on_mount(self) -> None:
         self.timings["mounted_at"] = time.perf_counter()
-        from ..units import registry  # noqa: PLC0415 - warm pint up off the UI thread for the forms
-        threading.Thread(target=registry, daemon=True).start()
         if os.path.exists(self.path):
             self.start()
         else:
@@ -66,23 +74,29 @@ class LedgerConsole(App):
         self.push_screen(self.main)
 
     def main_ready(self) -> None:
-        """The main screen is composed: read the ledger and start watching the file."""
+        """The main screen is composed: read the ledger (on this thread: the screen has nothing to show
+        before it, and a reader thread would only share the interpreter with the first layout, which made
+        the first paint slower), paint, then verify the chain in a worker and watch the file."""
         self.set_interval(POLL_S, self.poll)
-        self._busy = True
-        self.run_worker(self._first_load, thread=True, group="load")
-
-    def ledger_created(self) -> None:
-        self.pop_screen()
-        self.start()
-
-    def _first_load(self) -> None:
-        """Paint without hashing first (big ledgers), then verify the chain and repaint."""
         try:
             t = time.perf_counter()
             first = self.live.snapshot(verify=False)
             self.timings["first_read_s"] = time.perf_counter() - t
             self.timings["first_read_done_at"] = time.perf_counter()
-            self.call_from_thread(self.apply, first)
+            self.apply(first)
+        except Exception as exc:  # noqa: BLE001 - shown, never a traceback
+            self.failed(exc)
+            return
+        self._busy = True
+        self.run_worker(self._verify_after_paint, thread=True, group="load")
+
+    def ledger_created(self) -> None:
+        self.pop_screen()
+        self.start()
+
+    def _verify_after_paint(self) -> None:
+        """The first paint skipped hashing (big ledgers): verify the chain now and repaint."""
+        try:
             self._painted_once.wait(5.0)  # hash after the first paint, not competing with it
             self.call_from_thread(self.apply, self.live.snapshot())
         except Exception as exc:  # noqa: BLE001 - shown, never a traceback
@@ -131,6 +145,8 @@ class LedgerConsole(App):
 
     def _painted(self) -> None:
         self.timings.setdefault("first_paint_at", time.perf_counter())
+        if not self._painted_once.is_set():  # after the first paint, not competing with it for the processor
+            threading.Thread(target=warm_up_forms, daemon=True).start()
         self._painted_once.set()
         self.lows.request(self.snap)
 

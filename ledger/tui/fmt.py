@@ -5,6 +5,8 @@ from datetime import datetime, timezone
 
 from rich.text import Text
 
+# Colours by hex: entries 40, 208, 247 and 242 of the xterm 256-colour palette (green, orange, two greys).
+# Textual's markup does not know those palette names and looks for a spelling suggestion on every redraw.
 KIND_TAG = {
     "burn": ("▲", "BURN"), "plan": ("◇", "PLAN"), "mass": ("±", "MASS"),
     "use": ("•", "USE"), "withdraw": ("✕", "WDRW"), "correct": ("✎", "CORR"),
@@ -19,7 +21,7 @@ KIND_GROUPS = {"gauge": ("gauge", "rebaseline"), "approve": ("approve", "reject"
 
 APPROVAL_TAG = {
     "approved": ("✓", "approved", "green"), "rejected": ("⊘", "rejected", "bold red"),
-    "stale": ("⚠", "approval stale", "bold dark_orange"), "none": ("·", "undecided", "grey62"),
+    "stale": ("⚠", "approval stale", "bold #ff8700"), "none": ("·", "undecided", "#9e9e9e"),
     "approved?": ("✓", "approved, re-checking", "green"),
     "unchecked": ("✓", "approved, not re-checked", "yellow"),
 }
@@ -29,7 +31,7 @@ whether the ledger has moved under the approval)."""
 # Gauge cells: the glyph carries the meaning, colour only repeats it.
 FREE, RESERVE, RESIDUAL, EMPTY = "█", "▒", "░", "·"
 LEGEND = f"{FREE} free  {RESERVE} reserve  {RESIDUAL} residual  {EMPTY} used"
-GLYPH_STYLE = {FREE: "green3", RESERVE: "dark_orange", RESIDUAL: "grey62", EMPTY: "grey42"}
+GLYPH_STYLE = {FREE: "#00d700", RESERVE: "#ff8700", RESIDUAL: "#9e9e9e", EMPTY: "#6c6c6c"}
 
 
 def legend(compact: bool) -> str:
@@ -41,8 +43,8 @@ def legend(compact: bool) -> str:
 
 
 KIND_STYLE = {"burn": "bold bright_cyan", "plan": "bold yellow", "mass": "bold magenta", "use": "cyan",
-              "withdraw": "grey62", "correct": "bold bright_red", "handover": "bold white",
-              "gauge": "bold dodger_blue1", "rebaseline": "bold orchid", "approve": "bold green3",
+              "withdraw": "#9e9e9e", "correct": "bold bright_red", "handover": "bold white",
+              "gauge": "bold dodger_blue1", "rebaseline": "bold orchid", "approve": "bold #00d700",
               "reject": "bold red"}
 
 

@@ -59,6 +59,10 @@ def post(app, fn, *args) -> None:
         pass
 
 
+PROGRESS_EVERY_S = 0.25
+"""The sampling percentage is redrawn at most this often: each redraw repaints the state panels."""
+
+
 class LowBounds:
     """The latest ledger state asked for (its chain head), how far its run has got, its result or error.
 
@@ -77,6 +81,7 @@ class LowBounds:
         self.running = False
         self.queued: Snapshot | None = None
         self.runs = 0
+        self._progress_drawn_at = 0.0
         self.asked_at = self.shown_at = 0.0  # perf_counter of the last request and of its bounds shown
 
     @staticmethod
@@ -124,7 +129,10 @@ class LowBounds:
     def _progress(self, key: tuple, fraction: float) -> None:
         if key == self.key and self.result is None:
             self.fraction = fraction
-            self.on_change()
+            now = time.perf_counter()
+            if now - self._progress_drawn_at >= PROGRESS_EVERY_S:  # a redraw per chunk would slow the forms
+                self._progress_drawn_at = now
+                self.on_change()
 
     def _ended(self, key: tuple, res: dict[str, Any] | None, error: str | None, seconds: float) -> None:
         self.running = False

@@ -23,8 +23,8 @@ from . import fields
 from .entries import engine_options, plan_options
 from .work import WorkMixin
 
-VERDICT_TAG = {"feasible": (" ✓ FEASIBLE ", "bold black on green3"),
-               "marginal": (" ◐ MARGINAL ", "bold black on dark_orange"),
+VERDICT_TAG = {"feasible": (" ✓ FEASIBLE ", "bold black on #00d700"),
+               "marginal": (" ◐ MARGINAL ", "bold black on #ff8700"),
                "infeasible": (" ✗ INFEASIBLE ", "bold white on red3")}
 WAIT_S = 0.3
 """Typing pause before the confidence check starts (the nominal answer needs no pause)."""
@@ -45,7 +45,7 @@ def confidence_text(res: dict[str, Any]) -> Text:
 def verdict_text(res: dict[str, Any]) -> Text:
     ok = res["verdict"] == "feasible"
     out = Text("nominal values: ")
-    out.append(" ✓ FEASIBLE " if ok else " ✗ NOT FEASIBLE ", style="bold black on green3" if ok else "bold white on red3")
+    out.append(" ✓ FEASIBLE " if ok else " ✗ NOT FEASIBLE ", style="bold black on #00d700" if ok else "bold white on red3")
     out.append(f"  {res['engine']} {res['dv_m_s']:,.3f} m/s\n", style="bold")
     out.append(f"{res['reason']}\n\n")
     out.append(f"propellant needed   {res['propellant_kg']:,.3f} kg\n")

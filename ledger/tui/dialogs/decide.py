@@ -75,7 +75,7 @@ class DecideForm(FormDialog):
             return Text(f"✗ {exc}", style="bold red")
         ok = res["verdict"] == "feasible"
         out.append(" ✓ nominal FEASIBLE " if ok else " ✗ nominal NOT FEASIBLE ",
-                   style="bold black on green3" if ok else "bold white on red3")
+                   style="bold black on #00d700" if ok else "bold white on red3")
         out.append(f"  {res['engine']} {res['dv_m_s']:,.2f} m/s, dv free after {res['dv_free_after_m_s']:,.2f} m/s\n")
         state = self.screen_approval(int(seq))
         sym, words, style = fmt.APPROVAL_TAG.get(state, fmt.APPROVAL_TAG["none"])

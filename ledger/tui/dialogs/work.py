@@ -25,7 +25,7 @@ def progress_text(label: str, fraction: float | None) -> Text:
         n = int(round(BAR * max(0.0, min(1.0, fraction))))
         out.append("  ")
         out.append("█" * n, style="yellow")
-        out.append("░" * (BAR - n), style="grey42")
+        out.append("░" * (BAR - n), style="#6c6c6c")
         out.append(f" {100 * fraction:3.0f}%")
     return out
 

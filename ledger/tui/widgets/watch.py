@@ -84,11 +84,11 @@ class WatchList(Widget):
         sym, text, style = self.chain
         lines.append(Text(f"{sym} chain {text}", style=style))
         if not self.pending:
-            lines.append(Text("◇ no pending plans", style="grey62"))
+            lines.append(Text("◇ no pending plans", style="#9e9e9e"))
         now = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M")
         lines += plan_lines(self.pending, self.approvals, w, now)
         if not self.warnings:
             lines.append(Text("✓ no warnings", style="green"))
         for line in self._warning_lines(w):
-            lines.append(Text(line, style="dark_orange"))
+            lines.append(Text(line, style="#ff8700"))
         return Text("\n").join(fmt.fit(line, w) for line in lines)

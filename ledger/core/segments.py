@@ -20,7 +20,10 @@ import numpy as np
 
 from .craft import Craft
 from .entries import BURN, MASS, REBASELINE, Entry
-from .sigmas import entry_sigma
+from .sigmas import ENTRY_DEFAULTS
+
+_CODE = {"dv": 0, "duration": 1, "propellant": 2, "delta": 3}
+_RELATIVE = {field: d.relative for field, d in ENTRY_DEFAULTS.items()}
 
 
 @dataclass(frozen=True)
@@ -49,24 +52,28 @@ def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
     Re-baselines are not compressible: cut the ledger with ``parts`` first."""
     n, n_eng = len(events), len(craft.engines)
     index = {e.id: i for i, e in enumerate(craft.engines)}
-    code = np.empty(n, dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass change
-    engine = np.full(n, -1, dtype=np.int64)
-    amount = np.empty(n)
-    var = np.empty(n)
-    for i, ev in enumerate(events):
-        d = ev.data
-        if ev.kind == REBASELINE:
+    rows = []  # tuples first, whole arrays after: element-wise writes into arrays cost several times more
+    for ev in events:
+        kind, d = ev.kind, ev.data
+        if kind == REBASELINE:
             raise ValueError("segments: re-baselines cut the ledger into parts (segments.parts)")
-        if ev.kind == MASS:
-            field = "delta"
-            code[i] = 3
+        if kind == MASS:
+            field, e = "delta", -1
         else:
-            engine[i] = index[d["engine"]]
-            field = ("dv" if ev.kind == BURN and d.get("dv") is not None else
+            e = index[d["engine"]]
+            field = ("dv" if kind == BURN and d.get("dv") is not None else
                      "duration" if d.get("duration") is not None else "propellant")
-            code[i] = {"dv": 0, "duration": 1, "propellant": 2}[field]
-        amount[i] = d[field]
-        var[i] = entry_sigma(d, field) ** 2
+        given = d.get("sigma")
+        rows.append((_CODE[field], e, d[field], np.nan if given is None else given, _RELATIVE[field]))
+    if rows:
+        code_, engine_, amount_, given_, rel_ = zip(*rows)
+    else:
+        code_ = engine_ = amount_ = given_ = rel_ = ()
+    code = np.array(code_, dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass change
+    engine = np.array(engine_, dtype=np.int64)
+    amount = np.array(amount_, dtype=float)
+    given = np.array(given_, dtype=float)
+    var = np.where(np.isnan(given), np.abs(amount) * np.array(rel_, dtype=float), given) ** 2  # as entry_sigma
     is_scale = code == 0
     start = np.ones(n, dtype=bool)
     start[1:] = (is_scale[1:] != is_scale[:-1]) | (is_scale[1:] & (engine[1:] != engine[:-1]))

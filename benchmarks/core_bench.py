@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import resource
 import sqlite3
 import statistics
 import subprocess
@@ -63,6 +64,21 @@ def best(fn, repeat: int = 5) -> float:
     return min(times)
 
 
+def best_child(cmd: list[str], env: dict, repeat: int) -> tuple[float, float]:
+    """Best wall time of ``repeat`` runs of a command, and the CPU time (user + system) of that run."""
+    best_wall, best_cpu = float("inf"), float("nan")
+    for _ in range(repeat):
+        before = resource.getrusage(resource.RUSAGE_CHILDREN)
+        t = time.perf_counter()
+        subprocess.run(cmd, env=env, capture_output=True, check=True)
+        wall = time.perf_counter() - t
+        after = resource.getrusage(resource.RUSAGE_CHILDREN)
+        if wall < best_wall:
+            best_wall = wall
+            best_cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return best_wall, best_cpu
+
+
 def build_ledger(folder: str, n: int) -> str:
     path = os.path.join(folder, f"bench-{n}.json")
     LedgerFile.create(path, craft_to_dict(CRAFT), "2023-01-01T00:00:00Z", "bench")
@@ -97,9 +113,11 @@ def main() -> None:
     ap.add_argument("--sizes", type=int, nargs="*", default=[1000, 20000, 100000])
     args = ap.parse_args()
     print("status s = status --json with its Monte Carlo cached; 1st s = the first status after a write")
+    print("cpu s = its processor time (user + system); x floor = status against 'python -c \"import numpy\"'")
     print("replay = the prefix scan over the step arrays; +convert = from Entry objects (steps built too)")
-    print(f"{'entries':>8} {'replay ms':>10} {'+convert':>9} {'loop ms':>9} {'speed-up':>9} {'status s':>9} {'1st s':>9} "
-          f"{'append ms':>10} {'sqlite ms':>10} {'ratio':>7}")
+    print(f"{'entries':>8} {'replay ms':>10} {'+convert':>9} {'loop ms':>9} {'speed-up':>9} {'status s':>9} "
+          f"{'cpu s':>6} {'x floor':>8} {'1st s':>7} {'append ms':>10} {'sqlite ms':>10} {'ratio':>7}")
+    t_floor = None
     with tempfile.TemporaryDirectory() as folder:
         for n in args.sizes:
             evs = entries(n)
@@ -113,7 +131,9 @@ def main() -> None:
             env.pop("PYTHONDONTWRITEBYTECODE", None)
             cmd = [sys.executable, "-m", "ledger", "--ledger", path, "status", "--json"]
             subprocess.run(cmd, env=env, capture_output=True, check=True)  # warm the page cache
-            t_status = best(lambda: subprocess.run(cmd, env=env, capture_output=True, check=True), repeat=3)
+            t_status, cpu_status = best_child(cmd, env, repeat=5)
+            if t_floor is None:  # the same machine's floor: an interpreter that only imports numpy
+                t_floor, _ = best_child([sys.executable, "-c", "import numpy"], env, repeat=5)
 
             def cold():  # the first status after a write: the Monte Carlo runs, then is cached
                 os.unlink(path + ".confidence-cache.json")
@@ -121,8 +141,9 @@ def main() -> None:
             t_cold = best(cold, repeat=2)
             t_app, t_sql = bench_append(path, folder)
             print(f"{n:>8} {1e3 * t_scan:>10.2f} {1e3 * t_full:>9.2f} {1e3 * t_loop:>9.2f} {t_loop / t_full:>8.1f}x "
-                  f"{t_status:>9.3f} {t_cold:>9.3f} "
+                  f"{t_status:>9.3f} {cpu_status:>6.2f} {t_status / t_floor:>7.1f}x {t_cold:>7.3f} "
                   f"{1e3 * t_app:>10.2f} {1e3 * t_sql:>10.3f} {t_app / t_sql:>6.0f}x")
+    print(f"floor: {t_floor:.3f} s for an interpreter that imports numpy and exits")
     print("targets: replay 100k <= 50 ms; status 20k <= 0.6 s; append at 20k <= 60 ms")
 
 

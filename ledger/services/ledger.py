@@ -7,6 +7,7 @@ from typing import Any, Mapping, Sequence
 
 import numpy as np
 
+from ..bulk import paused_gc
 from ..core import capability as cap
 from ..core.codec import craft_from_dict, craft_to_dict
 from ..core.craft import Craft
@@ -141,7 +142,8 @@ class Ledger:
         meta = doc["meta"]["1"]
         records = ordered(doc)
         try:
-            snap = snapshot_from(self.path, meta, records, _verified(self.path, meta, records))
+            with paused_gc():
+                snap = snapshot_from(self.path, meta, records, _verified(self.path, meta, records))
         except (KeyError, TypeError, ValueError, AttributeError, IndexError, ZeroDivisionError) as exc:
             raise StoreError(f"{self.path}: ledger contents malformed ({type(exc).__name__}: {exc})") from None
         if self.file.notices:

@@ -16,6 +16,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from ..bulk import paused_gc
 from ..core import capability as cap
 from ..core.codec import craft_from_dict
 from ..core.entries import BURN, CORRECT, DECISIONS, MASS, PLAN, REBASELINE, USE, WITHDRAW, Entry, Resolved, resolve
@@ -105,7 +106,8 @@ class LiveLedger(Ledger):
             meta = doc["meta"]["1"]
             records = self.file.records()
             try:
-                return self._update(key, meta, records, verify)
+                with paused_gc():
+                    return self._update(key, meta, records, verify)
             except (KeyError, TypeError, ValueError) as exc:
                 self._snap, self._key = None, None
                 raise StoreError(f"{self.path}: ledger contents malformed ({type(exc).__name__}: {exc})") from None

@@ -19,6 +19,8 @@ import tempfile
 from typing import Any
 
 import orjson
+
+from ..bulk import paused_gc
 from ..errors import StoreError
 
 _CACHE: dict[str, list[Any]] = {}
@@ -149,7 +151,8 @@ def read_document(path: str) -> dict[str, Any]:
             raw = fh.read()
     except OSError as exc:
         raise StoreError(f"{path}: cannot read it ({_reason(exc)})") from None
-    data = decode(raw, path)
+    with paused_gc():
+        data = decode(raw, path)
     _CACHE[path] = [_key(st), data, raw]
     return dict(data)
 

@@ -4,8 +4,9 @@
 One write path: ``append_many``. It runs under an exclusive lock on a sidecar lock file, re-reads the
 file inside the lock (another process may have appended), numbers the entries itself, links them into
 the hash chain and writes through the durable storage. Reads need no lock: the file is only ever
-replaced whole. Every read checks the layout and the chain head recorded outside the file; a damaged
-file is never written over, and its error names the newest good backup and the restore command.
+replaced whole. Every read checks the layout (walked once per parsed file) and the chain head recorded
+outside the file; a damaged file is never written over, and its error names the newest good backup and
+the restore command.
 """
 from __future__ import annotations
 
@@ -14,7 +15,6 @@ import threading
 from contextlib import contextmanager
 from datetime import datetime, timezone
 from typing import Any, Iterator, Mapping
-
 
 from .. import __version__
 from ..errors import StoreError

@@ -85,25 +85,24 @@ def check_layout(doc: Mapping[str, Any], path: str) -> None:
             raise Damaged(f"{path}: entry {key} is malformed (not a record with its own sequence number and hash)")
 
 
-_IN_ORDER: dict[int, tuple[Any, int, bool]] = {}
-"""id(table) -> (the table, held; its size; whether its keys are "1".."N" in order), for the last few tables
-read or written: the head and the ordered records are then had without sorting 20k keys on every call."""
+_LAST_ORDER: list[Any] = [None, -1, False]
+"""[table, its size, whether its keys are "1".."N" in order] for the last table asked about (one slot: it
+holds the table, and a console left open must not keep old copies of a large ledger alive). A read asks
+for the same table three times (layout, head, records), an append for the old table then the new one."""
 
 
 def in_order(table: Mapping[str, Any]) -> bool:
     """Are the table's keys "1".."N" in that order (as every append writes them)?"""
-    hit = _IN_ORDER.get(id(table))
-    if hit is not None and hit[0] is table and hit[1] == len(table):
-        return hit[2]
+    last, size, ok = _LAST_ORDER
+    if last is table and size == len(table):
+        return ok
     ok = list(table) == [str(i) for i in range(1, len(table) + 1)]
     _remember_order(table, ok)
     return ok
 
 
 def _remember_order(table: Mapping[str, Any], ok: bool) -> None:
-    if len(_IN_ORDER) >= 4:
-        _IN_ORDER.clear()
-    _IN_ORDER[id(table)] = (table, len(table), ok)
+    _LAST_ORDER[:] = [table, len(table), ok]
 
 
 def _well_numbered(table: Mapping[str, Any]) -> bool:

@@ -43,3 +43,23 @@ def test_status_path_needs_no_console_units_or_real_gas(tmp_path):
             main(['--ledger', {str(ledger)!r}, 'status'])
     """)
     assert [m for m in ("textual", "pint", "CoolProp", "matplotlib", "yaml") if m in mods] == []
+
+
+def test_a_cached_status_reads_without_sampler_lock_or_tinydb(tmp_path):
+    # Reads take no lock and TinyDB is only needed to write; once the Monte Carlo behind the low bounds is
+    # cached for this ledger, a status does not even import the sampler (kept off the quick path).
+    craft = tmp_path / "c.yaml"
+    craft.write_text("craft: {name: b, dry_mass: 10}\ntanks: [{id: t, fluid: hydrazine, load: 5}]\n"
+                     "engines: [{id: e, isp: 220, thrust: 1, feeds: {t: 1}}]\n")
+    ledger = tmp_path / "l.json"
+    env = dict(os.environ, PYTHONPATH=ROOT)
+    for argv in (["init", "--craft", str(craft)], ["burn", "--engine", "e", "--dv", "1"], ["status", "--json"]):
+        subprocess.run([sys.executable, "-m", "ledger", "--ledger", str(ledger), *argv], cwd=ROOT, check=True,
+                       capture_output=True, env=env)
+    mods = loaded_after(f"""
+        import io, contextlib
+        from ledger.cli import main
+        with contextlib.redirect_stdout(io.StringIO()):
+            main(['--ledger', {str(ledger)!r}, 'status', '--json'])
+    """)
+    assert [m for m in ("ledger.core.montecarlo", "ledger.core.sampled", "tinydb", "filelock") if m in mods] == []

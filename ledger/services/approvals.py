@@ -6,14 +6,16 @@ an approval still holds is worked out on reading (``uncertainty.approvals``), ne
 """
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from ..core import montecarlo as mc
 from ..core.entries import APPROVE, DECISIONS, REJECT
 from ..errors import InputError
 from . import uncertainty
 from .ledger import Ledger
 from .records import clean_text, plan_ref
+
+if TYPE_CHECKING:
+    from ..core import montecarlo as mc
 
 KEPT = ("engine", "dv_m_s", "verdict", "probability", "probability_se", "confidence", "dv_free_after_m_s",
         "dv_free_after_low_m_s", "samples", "seed", "limiting_tank", "reason")

@@ -8,20 +8,23 @@ from __future__ import annotations
 
 import math
 import os
-from typing import Any, Sequence
+from typing import TYPE_CHECKING, Any, Sequence
 
 from ..core import capability as cap
-from ..core import montecarlo as mc
-from ..core import sampled
 from ..core.entries import APPROVE, DECISIONS
 from ..errors import InputError
 from .ledger import Snapshot
 from .timefmt import iso
 from .views import CAUTION, status
 
+if TYPE_CHECKING:
+    from ..core import montecarlo as mc
+
 DEFAULT_CONFIDENCE = 0.99
-DEFAULT_SAMPLES = mc.DEFAULT_SAMPLES
-DEFAULT_SEED = mc.DEFAULT_SEED
+DEFAULT_SAMPLES = 10_000
+DEFAULT_SEED = 24301
+"""The Monte Carlo's own defaults (core.montecarlo; a test keeps the two equal). Written out here so that a
+status served from the cache does not import the sampler."""
 WORKERS = min(2, os.cpu_count() or 1)
 """Threads the Monte Carlo's chunks are shared between (the answer does not depend on it)."""
 STALE_DV_ABS_M_S = 0.1
@@ -52,6 +55,8 @@ def validate(confidence: float, samples: int, seed: int = DEFAULT_SEED) -> None:
 
 def run(snap: Snapshot, samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED,
         progress: mc.Progress | None = None) -> mc.Samples:
+    from ..core import montecarlo as mc  # noqa: PLC0415 - only when samples are drawn
+
     return mc.simulate(snap.craft, snap.resolved.events, samples=samples, seed=seed, progress=progress,
                        workers=WORKERS)
 
@@ -72,6 +77,8 @@ def commitments(snap: Snapshot, approved_only: bool = False, exclude: int | None
 def check_from(snap: Snapshot, s: mc.Samples, engine: str, dv: float, confidence: float,
                plans: Sequence[tuple[str, float]]) -> dict[str, Any]:
     """The nominal check plus its probability over the samples and the three-way verdict."""
+    from ..core import sampled  # noqa: PLC0415 - only once samples exist
+
     res = cap.check(snap.craft, snap.state, engine, dv, plans)
     sc = sampled.check_samples(snap.craft, s, engine, dv, plans)
     p = sc.probability
@@ -155,6 +162,8 @@ def confidence_status(snapshot: Snapshot, confidence: float = DEFAULT_CONFIDENCE
 
 def _confidence_status(snapshot: Snapshot, confidence: float, samples: int, seed: int,
                        progress: mc.Progress | None) -> dict[str, Any]:
+    from ..core import sampled  # noqa: PLC0415 - only once samples exist
+
     craft = snapshot.craft
     s = run(snapshot, samples, seed, progress)
     usable, avail, free = sampled.capability_samples(craft, s)

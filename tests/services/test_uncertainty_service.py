@@ -57,3 +57,11 @@ def test_sigma_follows_its_amount_through_corrections_and_latest_decision_wins()
     assert resolve([plan, yes]).decisions[2].kind == APPROVE
     assert resolve([plan, yes, no]).decisions[2].kind == REJECT
     assert resolve([plan, yes, no]).pending == (plan,)
+
+
+def test_service_defaults_are_the_samplers_own():
+    # The service writes the defaults out (a cached status does not import the sampler); they must not drift.
+    from ledger.core import montecarlo
+    from ledger.services import uncertainty as u
+
+    assert (u.DEFAULT_SAMPLES, u.DEFAULT_SEED) == (montecarlo.DEFAULT_SAMPLES, montecarlo.DEFAULT_SEED)

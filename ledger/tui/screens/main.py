@@ -28,6 +28,10 @@ SHORT_CAUTION = ("⚠ Decision support only: verify against the mission's flight
                  "its mission rules and the responsible engineers.")
 
 
+NARROW_GRID = 120
+"""Below this many columns the ledger grid drops the year and shortens 'engine', so that the status and
+'by' columns still fit beside the per-tank columns (a 160-column terminal gives the grid about 107)."""
+
 class MainScreen(Screen):
     HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (120, "-wide")]
     BINDINGS = actions.bindings()
@@ -141,7 +145,7 @@ class MainScreen(Screen):
     def draw_rows(self) -> None:
         table = self.query_one(LedgerGrid)
         tank_ids = tuple(self.snap.craft.tank_ids)
-        narrow = self.size.width < 100
+        narrow = (table.size.width or self.size.width) < NARROW_GRID
         keep = self.window.cursor_seq
         seqs = self.window.seqs()
         rows = browse.rows(self.snap, self.ix, seqs)

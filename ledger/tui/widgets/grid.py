@@ -4,7 +4,8 @@ Textual's DataTable renders every cell through rich's padding and cropping; for 
 columns that was about half a second of the first paint on a loaded 2-core machine. The window only ever
 shows one page, so a grid that joins each row into a single line does the same job in milliseconds:
 fixed column widths from the page's contents, a header, a highlighted cursor row, zebra stripes,
-horizontal scrolling by whole columns (‹ › in the header say more are off screen), keys and mouse.
+horizontal scrolling by whole columns (‹ › in the header say more are off screen; the last column that
+does not fit whole is shown cut with '…' when there is room for a part of it), keys and mouse.
 """
 from __future__ import annotations
 
@@ -19,6 +20,8 @@ from textual.widget import Widget
 
 PAGE, END = 10**6, 10**9
 MAX_WIDTH = 40
+MIN_PART = 8
+"""A column that does not fit whole is still shown, cut with '…', when this many cells are left for it."""
 
 
 class LedgerGrid(Widget, can_focus=True):
@@ -154,7 +157,14 @@ class LedgerGrid(Widget, can_focus=True):
         cursor = Style(bgcolor=self.get_component_rich_style("grid--cursor").bgcolor, bold=self.has_focus)
         stripe = Style(bgcolor=self.get_component_rich_style("grid--stripe").bgcolor)
         shown = self._shown(widths)
-        more = ("‹" if self.first_col else "") + ("›" if shown.stop < len(widths) else "")
+        cut = False
+        room = self.size.width - 2 - sum(widths[j] + 2 for j in shown)  # less the '›' and the edge
+        if shown.stop < len(widths) and room >= MIN_PART + 2:  # the next column, shortened with '…'
+            widths = list(widths)
+            cut = widths[shown.stop] > room - 2
+            widths[shown.stop] = min(widths[shown.stop], room - 2)
+            shown = range(shown.start, shown.stop + 1)
+        more = ("‹" if self.first_col else "") + ("›" if shown.stop < len(widths) or cut else "")
         lines = [self._line(self.columns, widths, header, shown, more)]
         for i, (_, cells) in enumerate(self.rows[: self.page_rows]):
             style = cursor if i == self.cursor else (stripe if i % 2 else None)

@@ -18,6 +18,11 @@ def engine_options(snap: Snapshot) -> list[tuple[str, str]]:
     return [(f"{e.id}  Isp {e.isp_s:.0f} s, {e.thrust_n:g} N", e.id) for e in snap.craft.engines]
 
 
+def engine_field(snap: Snapshot, default: str) -> Field:
+    """The engine picker every burn-like form starts with, set to ``default``."""
+    return Field("engine", "engine", options=engine_options(snap), required=True, value=default)
+
+
 def plan_options(snap: Snapshot) -> list[tuple[str, int]]:
     return [(f"#{p.seq} {p.get('engine')} {p.get('dv'):,.2f} m/s at {fmt.when_t(p.at)}", p.seq)
             for p in snap.resolved.pending]
@@ -49,8 +54,7 @@ class BurnForm(EntryForm):
         snap = self.snap
         return [
             Field("plan", "executes plan", options=plan_options(snap)),
-            Field("engine", "engine", options=engine_options(snap), required=True,
-                  value=snap.craft.engine_ids[0]),
+            engine_field(snap, snap.craft.engine_ids[0]),
             Field("amount", "amount", fields.amount, "e.g. 1.8 m/s, 95 s, 2.4 kg", required=True),
             Field("at", "when", fields.when, WHEN_HINT),
             *common_tail(),
@@ -80,8 +84,7 @@ class PlanForm(EntryForm):
 
     def make_fields(self) -> list[Field]:
         return [
-            Field("engine", "engine", options=engine_options(self.snap), required=True,
-                  value=self.snap.craft.engine_ids[0]),
+            engine_field(self.snap, self.snap.craft.engine_ids[0]),
             Field("amount", "delta-v", lambda s: fields.amount(s, ("dv",)), "e.g. 12 m/s", required=True),
             Field("at", "planned for", lambda s: fields.when(s, required=True), "e.g. 2026-05-04T13:20Z",
                   required=True),
@@ -120,8 +123,7 @@ class UseForm(EntryForm):
 
     def make_fields(self) -> list[Field]:
         return [
-            Field("engine", "engine", options=engine_options(self.snap), required=True,
-                  value=self.snap.craft.engine_ids[-1]),
+            engine_field(self.snap, self.snap.craft.engine_ids[-1]),  # thrusters are usually listed last
             Field("amount", "amount", lambda s: fields.amount(s, ("duration", "propellant")),
                   "e.g. 40 s or 0.2 kg", required=True),
             Field("at", "when", fields.when, WHEN_HINT),

@@ -88,7 +88,13 @@ def snapshot_from(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[
     craft = craft_from_dict(meta["craft"])
     entries = tuple(entries_from_records(records))
     resolved = resolve(entries)
-    rep = replay(craft, resolved.events)
+    return assemble(path, craft, meta, records, entries, resolved, replay(craft, resolved.events), integrity)
+
+
+def assemble(path: str, craft: Craft, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]],
+             entries: tuple[Entry, ...], resolved: Resolved, rep: Replay, integrity: Break | None) -> Snapshot:
+    """The snapshot of a replayed ledger: capability now, warnings and the chain head it was read at
+    (shared by a fresh read and the console's incremental one)."""
     state = cap.State(rep.mass_kg, rep.remaining_kg)
     engines = tuple(cap.capability(craft, state))
     warnings = _warnings(craft, resolved.events, rep, state, engines, integrity)

@@ -10,20 +10,18 @@ from __future__ import annotations
 
 import os
 import threading
-from typing import Any, Mapping, Sequence
-
 from dataclasses import replace
+from typing import Any, Mapping, Sequence
 
 import numpy as np
 
 from ..bulk import paused_gc
-from ..core import capability as cap
 from ..core.codec import craft_from_dict
 from ..core.entries import BURN, CORRECT, DECISIONS, MASS, PLAN, REBASELINE, USE, WITHDRAW, Entry, Resolved, resolve
 from ..core.replay import Replay, replay
 from ..errors import StoreError
 from ..store.chain import Break, digest
-from .ledger import Ledger, Snapshot, _warnings
+from .ledger import Ledger, Snapshot, assemble
 from .records import entries_from_records
 
 
@@ -133,13 +131,7 @@ class LiveLedger(Ledger):
         if resolved is None:
             resolved = resolve(entries)
             rep = replay(craft, resolved.events)
-        state = cap.State(rep.mass_kg, rep.remaining_kg)
-        engines = tuple(cap.capability(craft, state))
-        warnings = _warnings(craft, resolved.events, rep, state, engines, integrity)
-        last = records[-1] if records else meta
-        head = (int(last.get("seq", len(records))), str(last.get("hash", "")))
-        self._snap = Snapshot(self.path, craft, meta, entries, resolved, rep, state, engines, integrity,
-                              tuple(warnings), head)
+        self._snap = assemble(self.path, craft, meta, records, entries, resolved, rep, integrity)
         self._key = key
         return self._snap
 

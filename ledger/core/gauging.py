@@ -74,8 +74,19 @@ class GaugeSigmas:
         return cls(**{f.name: 0.0 for f in fields(cls)})
 
 
+class _Estimate:
+    """What every gauge estimate offers beside its fields (propellant_kg and sigma_kg)."""
+
+    propellant_kg: float
+    sigma_kg: float
+
+    @property
+    def relative_sigma(self) -> float:
+        return self.sigma_kg / self.propellant_kg if self.propellant_kg else math.inf
+
+
 @dataclass(frozen=True)
-class BlowdownGauge:
+class BlowdownGauge(_Estimate):
     """Blowdown-tank PVT estimate and the intermediate values behind it (SI units)."""
 
     propellant_kg: float
@@ -92,13 +103,9 @@ class BlowdownGauge:
     samples: int
     seed: int
 
-    @property
-    def relative_sigma(self) -> float:
-        return self.sigma_kg / self.propellant_kg if self.propellant_kg else math.inf
-
 
 @dataclass(frozen=True)
-class GasGauge:
+class GasGauge(_Estimate):
     """Gas-stored tank estimate (m = rho_g(P, T) * V) and its inputs (SI units)."""
 
     propellant_kg: float
@@ -108,10 +115,6 @@ class GasGauge:
     mc_mean_kg: float
     samples: int
     seed: int
-
-    @property
-    def relative_sigma(self) -> float:
-        return self.sigma_kg / self.propellant_kg if self.propellant_kg else math.inf
 
 
 def _positive(name: str, value: float) -> float:

@@ -83,6 +83,17 @@ def _unique(src: str, kind: str, ids: list[str]) -> None:
         seen.add(i)
 
 
+def _mass_parts(value: Any) -> float | None:
+    """A feed's share as a positive finite float, or None (a whole number too large for a float too)."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return None
+    try:
+        share = float(value)
+    except OverflowError:
+        return None
+    return share if math.isfinite(share) and share > 0 else None
+
+
 def craft_from_document(doc: Any, src: str) -> Craft:
     if not isinstance(doc, Mapping):
         raise InputError(f"{src}: expected a mapping with craft, tanks, engines (and reserves)")
@@ -117,9 +128,11 @@ def craft_from_document(doc: Any, src: str) -> Craft:
         for tank_id, parts in feeds_node.items():
             if str(tank_id) not in tank_ids:
                 raise InputError(f"{f.at('feeds')}: unknown tank '{tank_id}' (tanks: {', '.join(sorted(tank_ids))})")
-            if isinstance(parts, bool) or not isinstance(parts, (int, float)) or not math.isfinite(parts) or parts <= 0:
-                raise InputError(f"{f.at('feeds')}.{tank_id}: expected a positive number of mass parts, got {parts!r}")
-            feeds[str(tank_id)] = float(parts)
+            share = _mass_parts(parts)
+            if share is None:
+                shown = repr(parts) if len(repr(parts)) <= 40 else repr(parts)[:37] + "..."
+                raise InputError(f"{f.at('feeds')}.{tank_id}: expected a positive number of mass parts, got {shown}")
+            feeds[str(tank_id)] = share
         cant = f.qty("cant", "angle", 0.0)
         if cant >= 90.0:
             raise InputError(f"{f.at('cant')}: {cant:g} deg leaves no thrust along the burn (expected below 90 deg)")

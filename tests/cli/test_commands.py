@@ -119,6 +119,8 @@ def test_errors_are_one_line_exit_2_and_write_nothing(ledger, args, message):
     ("craft: {name: x, dry_mass: 10}\ntanks: [{id: a, fluid: MMH, load: -5}]\n"
      "engines: [{id: e, isp: 200, thrust: 1, feeds: {a: 1}}]\n", "must not be negative"),
     ("craft: [1, 2\n", "not valid YAML"),
+    ("craft: {name: x, dry_mass: 10}\ntanks: [{id: a, fluid: MMH, load: 5}]\n"  # beyond any float
+     "engines: [{id: e, isp: 200, thrust: 1, feeds: {a: " + "9" * 400 + "}}]\n", "positive number of mass parts"),
 ])
 def test_bad_craft_files(tmp_path, body, message):
     craft = tmp_path / "bad.yaml"

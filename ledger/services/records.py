@@ -38,7 +38,8 @@ def entry_from_record(rec: Mapping[str, Any]) -> Entry:
 def _epochs(texts: list[str]) -> list[float]:
     """Many stored times at once: numpy parses the 'Z' form ``timefmt.iso`` writes in one C loop, a third
     of the one-by-one cost; any other form (an offset, from an older writer) goes one by one."""
-    if all(type(t) is str and t.endswith("Z") for t in texts):
+    # only the shape iso() writes: numpy alone would also read 'NaT', 'now' or 'today'
+    if all(type(t) is str and len(t) >= 20 and t[4] == "-" and t[10] == "T" and t[-1] == "Z" for t in texts):
         try:
             with warnings.catch_warnings():
                 warnings.simplefilter("error")  # numpy warns (not fails) on an offset: take the slow path

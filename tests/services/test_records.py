@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from datetime import datetime, timezone
 
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -43,3 +44,11 @@ def test_an_offset_time_is_read_one_by_one_with_the_same_answer():
                dict(_record(2, 0.0, 0.0), at="2026-03-01T14:00:00+02:00", recorded="2026-03-01T12:00:00Z")]
     a, b = entries_from_records(records)
     assert a.at == b.at == datetime(2026, 3, 1, 12, tzinfo=timezone.utc).timestamp()
+
+
+def test_words_numpy_would_read_as_times_are_not_times():
+    # numpy's datetime64 reads 'NaT', 'now' and 'today'; the standard library (and so this program) does not
+    for word in ("NaTZ", "nowZ", "todayZ"):
+        records = [dict(_record(1, 0.0, 0.0), at=word)]
+        with pytest.raises(ValueError):
+            entries_from_records(records)

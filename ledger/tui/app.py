@@ -33,7 +33,6 @@ FORMS = {"burn": BurnForm, "plan": PlanForm, "mass": MassForm, "use": UseForm, "
 NEEDS_PENDING = ("withdraw", "decide")
 
 
-
 def warm_up_forms() -> None:
     """Load what the forms and the first write need (pint's unit registry, the lock and TinyDB), off the
     screen's thread, so the first entry is not slower than the next ones."""
@@ -42,6 +41,7 @@ def warm_up_forms() -> None:
 
     prepare_writes()
     registry()
+
 
 class LedgerConsole(App):
     CSS_PATH = "console.tcss"

@@ -38,7 +38,11 @@ def cmd_demo(args) -> int:
     from .reading import cmd_log, cmd_status  # noqa: PLC0415
 
     if args.print_only:
+        from ..services import uncertainty  # noqa: PLC0415
+
         args.json, args.last = False, 25
+        args.confidence, args.samples, args.seed = (uncertainty.DEFAULT_CONFIDENCE, uncertainty.DEFAULT_SAMPLES,
+                                                    uncertainty.DEFAULT_SEED)
         cmd_status(args)
         return cmd_log(args)
     return open_console(args)

@@ -41,3 +41,12 @@ def test_a_reader_that_stops_early_is_not_an_error(ledger):
         err = proc.stderr.read()
         code = proc.wait(timeout=60)
     assert code == 0 and b"Traceback" not in err
+
+
+def test_demo_prints_status_and_log_without_the_console(tmp_path):
+    # 'demo --print' shares the status and log commands; it must bring everything they need
+    proc = run("demo", "--folder", str(tmp_path), "--print")
+    assert proc.returncode == 0, proc.stderr
+    for words in ("demo ledger:", "Tanks", "Engines", "low 99%", "Decision support only", "replay order"):
+        assert words in proc.stdout, words
+    assert (tmp_path / "geo-comsat.ledger.json").exists()

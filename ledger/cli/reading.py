@@ -49,6 +49,7 @@ def cmd_status(args) -> int:
 
 
 def print_status(data: dict) -> None:
+    from rich import box  # noqa: PLC0415
     from rich.table import Table  # noqa: PLC0415
 
     out = console()
@@ -57,11 +58,13 @@ def print_status(data: dict) -> None:
                   "replay a ledger changed after it was written; run 'propledger verify' and 'propledger restore'[/]")
     out.print(f"[bold]{esc(data['craft'])}[/]  mass {data['mass_kg']:.2f} kg  entries {data['entries']}  "
               f"chain {esc(data['integrity'])}")
-    tanks = Table(title="Tanks", title_justify="left")
+    tanks = Table(title="Tanks", title_justify="left", box=box.SIMPLE_HEAVY)
     low = f"low {100 * data['confidence']:g}%" if "confidence" in data else None
     for col in ("tank", "fluid", "loaded kg", "remaining kg", "residual kg", "usable kg") + ((low,) if low else ()) + (
             "usable %",):
-        tanks.add_column(col, justify="left" if col in ("tank", "fluid") else "right")
+        # no header word cut on an 80-column terminal: a column is at least as wide as its longest word
+        tanks.add_column(col, justify="left" if col in ("tank", "fluid") else "right",
+                         min_width=max(len(w) for w in col.split()))
     for tid, t in data["tanks"].items():
         pct = 100.0 * t["usable_kg"] / max(t["load_kg"] - t["residual_kg"], 1e-12)
         tanks.add_row(esc(tid), esc(t["fluid"]), f"{t['load_kg']:.2f}", f"{t['remaining_kg']:.3f}",
@@ -82,7 +85,7 @@ def print_status(data: dict) -> None:
                           f"{g['bookkeeping_kg']:.3f}", f"{g['difference_kg']:+.3f}", f"{g['difference_sigma']:+.2f}",
                           f"[bold red]{verdict}[/]" if g["flagged"] else verdict)
         out.print(table)
-    engines = Table(title="Engines", title_justify="left")
+    engines = Table(title="Engines", title_justify="left", box=box.SIMPLE_HEAVY)
     for col in ("engine", "dv available m/s", "dv free m/s") + ((low,) if low else ()) + ("limiting tank",):
         engines.add_column(col, justify="left" if col in ("engine", "limiting tank") else "right")
     for eid, e in data["engines"].items():
@@ -177,6 +180,7 @@ def kind_label(r: dict) -> str:
 
 
 def print_log(craft, rows: list[dict]) -> None:
+    from rich import box  # noqa: PLC0415
     from rich.table import Table  # noqa: PLC0415
 
     out = console()

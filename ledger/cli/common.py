@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+import os
 import sys
 from typing import Any
 
@@ -38,10 +39,18 @@ def dump_json(obj: Any) -> None:
     sys.stdout.write("\n")
 
 
+FILE_WIDTH = 160
+"""Columns for tables written to a file or a pipe (rich would take 80 and cut the log's columns); a
+terminal keeps its own width, and COLUMNS, when set, wins over both."""
+
+
 def console(stderr: bool = False):
     from rich.console import Console  # noqa: PLC0415
 
-    return Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
+    out = Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
+    if not out.is_terminal and "COLUMNS" not in os.environ:
+        out.width = FILE_WIDTH
+    return out
 
 
 def plain(text: Any) -> str:

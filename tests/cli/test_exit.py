@@ -1,5 +1,6 @@
-"""The command line ends without tearing the interpreter down (a large heap took 0.1 s to free): every byte
-of output must still arrive, exit statuses must hold, and a reader that stops early is no error."""
+"""The command line's output as it leaves the process: it ends without tearing the interpreter down (a large
+heap took 0.1 s to free), yet every byte arrives, exit statuses hold and a reader that stops early is no
+error; tables written to a pipe keep their columns; the demo's printed form has what status needs."""
 from __future__ import annotations
 
 import json
@@ -7,10 +8,9 @@ import os
 import subprocess
 import sys
 
-from conftest import ROOT, run
-
 from ledger.services.ledger import Ledger
 from ledger.services.records import make_record
+from tests.cli.conftest import ROOT, run
 
 
 def test_large_output_arrives_whole_through_a_pipe(ledger):
@@ -50,3 +50,15 @@ def test_demo_prints_status_and_log_without_the_console(tmp_path):
     for words in ("demo ledger:", "Tanks", "Engines", "low 99%", "Decision support only", "replay order"):
         assert words in proc.stdout, words
     assert (tmp_path / "geo-comsat.ledger.json").exists()
+
+
+def test_tables_written_to_a_pipe_are_not_cut_to_80_columns(ledger):
+    # rich takes 80 columns when its output is not a terminal; a log saved to a file must keep every column
+    note = "north-south station keeping, second of the pair"
+    run("--ledger", ledger, "burn", "--engine", "lae", "--dv", "1.5 m/s", "--note", note, "--by", "R. Osei", check=True)
+    env = {k: v for k, v in os.environ.items() if k != "COLUMNS"}
+    env["PYTHONPATH"] = ROOT
+    proc = subprocess.run([sys.executable, "-m", "ledger", "--ledger", ledger, "log"], capture_output=True, text=True,
+                          env=env, cwd=ROOT)
+    assert proc.returncode == 0 and note in proc.stdout and "R. Osei" in proc.stdout
+    assert "…" not in proc.stdout

@@ -20,10 +20,9 @@ import numpy as np
 
 from .craft import Craft
 from .entries import BURN, MASS, REBASELINE, Entry
-from .sigmas import ENTRY_DEFAULTS
+from .sigmas import entry_sigmas
 
 _CODE = {"dv": 0, "duration": 1, "propellant": 2, "delta": 3}
-_RELATIVE = {field: d.relative for field, d in ENTRY_DEFAULTS.items()}
 
 
 @dataclass(frozen=True)
@@ -64,16 +63,12 @@ def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
             field = ("dv" if kind == BURN and d.get("dv") is not None else
                      "duration" if d.get("duration") is not None else "propellant")
         given = d.get("sigma")
-        rows.append((_CODE[field], e, d[field], np.nan if given is None else given, _RELATIVE[field]))
-    if rows:
-        code_, engine_, amount_, given_, rel_ = zip(*rows)
-    else:
-        code_ = engine_ = amount_ = given_ = rel_ = ()
-    code = np.array(code_, dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass change
+        rows.append((field, e, d[field], np.nan if given is None else given))
+    fields_, engine_, amount_, given_ = zip(*rows) if rows else ((), (), (), ())
+    code = np.array([_CODE[f] for f in fields_], dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass
     engine = np.array(engine_, dtype=np.int64)
     amount = np.array(amount_, dtype=float)
-    given = np.array(given_, dtype=float)
-    var = np.where(np.isnan(given), np.abs(amount) * np.array(rel_, dtype=float), given) ** 2  # as entry_sigma
+    var = entry_sigmas(fields_, amount, np.array(given_, dtype=float)) ** 2
     is_scale = code == 0
     start = np.ones(n, dtype=bool)
     start[1:] = (is_scale[1:] != is_scale[:-1]) | (is_scale[1:] & (engine[1:] != engine[:-1]))

@@ -7,7 +7,7 @@ shared/FIELD.md: [read], [memory], [practice]). A sigma written in the craft fil
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any, Mapping
+from typing import Any, Mapping, Sequence
 
 import numpy as np
 
@@ -70,6 +70,13 @@ def entry_sigma(data: Mapping[str, Any], field: str) -> float:
     if given is not None:
         return float(given)
     return abs(float(data[field])) * ENTRY_DEFAULTS[field].relative
+
+
+def entry_sigmas(fields: Sequence[str], amounts: np.ndarray, given: np.ndarray) -> np.ndarray:
+    """``entry_sigma`` for many entries at once: the sigma given with an entry (NaN where none was), else
+    the default share of its amount's size for that field."""
+    relative = np.array([ENTRY_DEFAULTS[f].relative for f in fields], dtype=float)
+    return np.where(np.isnan(given), np.abs(amounts) * relative, given)
 
 
 def defaults_table() -> list[dict[str, Any]]:

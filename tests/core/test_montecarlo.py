@@ -240,3 +240,14 @@ def test_marginal_case_built_on_purpose():
     expected = stats.norm.cdf(1.0)  # 0.8413
     assert abs(chk.probability - expected) < 4 * math.sqrt(expected * (1 - expected) / len(s))
     assert 0.5 < chk.probability < 0.99  # nominal intact, not at 99 %: marginal
+
+
+def test_entry_sigmas_for_many_entries_are_entry_sigma_for_each():
+    # The sampler's vectorised sigma rule must stay the per-entry one (core.sigmas.entry_sigma).
+    from ledger.core.sigmas import entry_sigma, entry_sigmas
+
+    data = [({"dv": 2.0}, "dv"), ({"duration": -30.0, "sigma": 0.5}, "duration"), ({"propellant": 0.4}, "propellant"),
+            ({"delta": -35.0}, "delta"), ({"dv": 1.0, "sigma": 0.0}, "dv")]
+    got = entry_sigmas([f for _, f in data], np.array([d[f] for d, f in data]),
+                       np.array([d.get("sigma", np.nan) for d, _ in data]))
+    assert got.tolist() == [entry_sigma(d, f) for d, f in data]

@@ -2,47 +2,66 @@
 
 The samples depend only on the ledger's contents (the chain head hash covers every entry and the craft),
 the confidence, the sample count, the seed and the program version. Re-reading an unchanged ledger then
-costs nothing, and `propledger status` stays quick between writes. The cache is a convenience: a missing,
-damaged or unwritable file only means the figures are computed again; it is never trusted across keys.
+costs nothing, and `propledger status` stays quick between writes. The cache is a convenience and is
+never trusted on its word: its bytes are sealed with an HMAC under the ledger's secret
+(``store.sidefiles``), so an edited or forged cache (a low bound of 9999 m/s, an approval never recorded)
+fails its seal and is ignored as if absent; a missing, damaged or unwritable file only means the figures
+are computed again. The key (head hash and count, options, version) is checked after the seal.
 """
 from __future__ import annotations
 
-import os
-import tempfile
 from typing import Any, Callable
 
 import orjson
 
 from .. import __version__
+from ..store import sidefiles
 
 SUFFIX = ".confidence-cache.json"
+PURPOSE = "propledger confidence cache v1"
+MAX_BYTES = 64 << 20
 
 
 def cache_path(ledger_path: str) -> str:
-    return ledger_path + SUFFIX
+    return sidefiles.real(ledger_path) + SUFFIX
+
+
+def load(ledger_path: str, key: dict[str, Any]) -> dict[str, Any] | None:
+    """The cached value for ``key`` if the file is sealed by this ledger's secret, else None."""
+    secret = sidefiles.secret(ledger_path, create=False)
+    raw = sidefiles.read_small(cache_path(ledger_path), MAX_BYTES)
+    if secret is None or raw is None or b"\n" not in raw:
+        return None
+    tag, body = raw.split(b"\n", 1)
+    try:
+        if not sidefiles.sealed_ok(secret, PURPOSE, body, tag.decode("ascii")):
+            return None
+        stored = orjson.loads(body)
+    except (UnicodeDecodeError, orjson.JSONDecodeError):
+        return None
+    if isinstance(stored, dict) and stored.get("key") == key and isinstance(stored.get("value"), dict):
+        return stored["value"]
+    return None
+
+
+def store(ledger_path: str, key: dict[str, Any], value: dict[str, Any]) -> bool:
+    secret = sidefiles.secret(ledger_path)
+    if secret is None:
+        return False  # no private secret can be kept here: no cache, same answer
+    try:
+        body = orjson.dumps({"key": key, "value": value})
+    except (TypeError, orjson.JSONEncodeError):
+        return False
+    tag = sidefiles.seal(secret, PURPOSE, body)
+    return sidefiles.write_private(cache_path(ledger_path), tag.encode() + b"\n" + body)
 
 
 def cached(ledger_path: str, key: dict[str, Any], compute: Callable[[], dict[str, Any]]) -> dict[str, Any]:
     """The stored result for ``key``, or ``compute()`` stored for next time."""
     key = dict(key, program=__version__)
-    path = cache_path(ledger_path)
-    try:
-        with open(path, "rb") as fh:
-            stored = orjson.loads(fh.read())
-        if isinstance(stored, dict) and stored.get("key") == key and isinstance(stored.get("value"), dict):
-            return stored["value"]
-    except (OSError, orjson.JSONDecodeError):
-        pass
+    hit = load(ledger_path, key)
+    if hit is not None:
+        return hit
     value = compute()
-    try:
-        fd, tmp = tempfile.mkstemp(prefix=".propledger-cache-", dir=os.path.dirname(os.path.abspath(path)))
-        try:
-            with os.fdopen(fd, "wb") as fh:
-                fh.write(orjson.dumps({"key": key, "value": value}))
-            os.replace(tmp, path)
-        finally:
-            if os.path.exists(tmp):
-                os.unlink(tmp)
-    except OSError:
-        pass  # a read-only folder: no cache, same answer
+    store(ledger_path, key, value)
     return value

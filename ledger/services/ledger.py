@@ -106,30 +106,17 @@ def assemble(path: str, craft: Craft, meta: Mapping[str, Any], records: Sequence
 def _verified(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]]) -> Break | None:
     """The chain check, skipped when these exact file bytes (by SHA-256) verified before.
 
-    Recomputing every entry's hash is most of a large ledger's read time; hashing the file's bytes once
-    costs a tenth of it. Any change to the file changes its digest and brings the full check back;
-    ``propledger verify`` always does the full check.
+    Any change to the file changes its digest and brings the full check back; the mark is sealed with
+    the ledger's secret (``store.verifiedmark``); ``propledger verify`` always does the full check.
     """
-    from ..store import durable  # noqa: PLC0415
+    from ..store import durable, verifiedmark  # noqa: PLC0415
 
     digest = durable.content_digest(path)
-    mark = path + VERIFIED_SUFFIX
-    if digest:
-        try:
-            with open(mark, encoding="ascii") as fh:
-                if fh.read().strip() == digest:
-                    return None
-        except (OSError, UnicodeDecodeError):
-            pass
+    if digest and verifiedmark.is_marked(path, digest):
+        return None
     brk = verify_chain(meta, records)
     if brk is None and digest:
-        try:
-            fd = os.open(mark + ".tmp", os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
-            with os.fdopen(fd, "w", encoding="ascii") as fh:
-                fh.write(digest + "\n")
-            os.replace(mark + ".tmp", mark)
-        except OSError:
-            pass  # a read-only folder: the full check runs every time
+        verifiedmark.mark(path, digest)  # sealed with the ledger's secret: a forged mark is ignored
     return brk
 
 

@@ -27,4 +27,4 @@ def test_a_stale_or_garbled_mark_is_ignored(ledger):
     with open(path + VERIFIED_SUFFIX, "w") as fh:
         fh.write("not a digest\n")
     assert Ledger(path).snapshot().integrity is None
-    assert open(path + VERIFIED_SUFFIX).read().strip() == durable.content_digest(os.path.abspath(path))
+    assert open(path + VERIFIED_SUFFIX).read().split()[0] == durable.content_digest(os.path.abspath(path))

@@ -6,12 +6,11 @@ so the report can be piped or redirected whole. Bad options fail before anything
 from __future__ import annotations
 
 import json
-import os
 import sys
 
 from ..errors import InputError, StoreError
 from ..services import handover
-from .common import open_ledger, warn
+from .common import open_ledger, plain, warn
 
 FORMATS = ("text", "md", "html", "json")
 EXIT_BACKUP_FAILED = 1
@@ -25,22 +24,17 @@ def register(sub) -> None:
                    help="window start: ISO 8601 time, or 'last' for the previous handover (the default)")
     p.add_argument("--format", choices=FORMATS, default="text", help="text (80 columns), md, html or json")
     p.add_argument("--out", metavar="FILE", help="write the report to FILE (default: standard output)")
+    p.add_argument("--force", action="store_true", help="replace FILE if it exists")
     p.add_argument("--no-record", action="store_true",
                    help="preview only: append no handover entry and write no backup")
     p.add_argument("--note", help="free text kept with the handover entry")
     p.set_defaults(func=cmd_handover)
 
 
-def _out_path(path: str | None) -> str | None:
-    if path is None:
-        return None
-    path = os.path.abspath(path)
-    folder = os.path.dirname(path)
-    if not os.path.isdir(folder):
-        raise InputError(f"--out: folder {folder} does not exist")
-    if os.path.isdir(path):
-        raise InputError(f"--out: {path} is a folder")
-    return path
+def _out_path(path: str | None, ledger_path: str, force: bool = False) -> str | None:
+    from ..services.outpaths import checked  # noqa: PLC0415
+
+    return None if path is None else checked(path, ledger_path, force=force)
 
 
 def render(report: dict, fmt: str) -> str:
@@ -53,8 +47,8 @@ def render(report: dict, fmt: str) -> str:
 
 def cmd_handover(args) -> int:
     led = open_ledger(args)
+    out = _out_path(args.out, led.path, args.force)  # refused before anything (even a cache) is written
     report = handover.assemble(led, from_name=args.from_name, to_name=args.to_name, since=args.since)
-    out = _out_path(args.out)
     if not args.no_record:
         handover.record(led, report, note=args.note)
     text = render(report, args.format)
@@ -63,14 +57,16 @@ def cmd_handover(args) -> int:
         sys.stdout.write(text)
         sys.stdout.flush()
     else:
+        from ..services.outpaths import write_atomic  # noqa: PLC0415
+
         try:
-            handover.write_report(out, text)
-        except OSError as exc:
+            write_atomic(out, text, force=args.force)
+        except (OSError, InputError, StoreError) as exc:
             done = f"handover recorded as entry {rec['entry']}, but " if rec.get("recorded") else ""
-            raise StoreError(f"{done}writing {out} failed: {exc.strerror or exc}") from None
+            raise StoreError(f"{done}writing the report failed: {exc}") from None
     if rec.get("recorded"):  # plain print: a path must stay whole on one line
-        print(f"recorded handover entry {rec['entry']}; backup: {rec.get('backup') or 'none'}", file=sys.stderr)
+        print(f"recorded handover entry {rec['entry']}; backup: {plain(rec.get('backup') or 'none')}", file=sys.stderr)
     if out is not None:
-        print(f"wrote {out}", file=sys.stderr)
+        print(f"wrote {plain(out)}", file=sys.stderr)
     warn(report["warnings"])
     return EXIT_BACKUP_FAILED if rec.get("backup_failed") else 0

@@ -7,8 +7,6 @@ ended) and then writes a backup that holds it.
 """
 from __future__ import annotations
 
-import os
-import tempfile
 from typing import Any, Mapping
 
 from ..core.entries import HANDOVER, Entry
@@ -166,24 +164,13 @@ def record(ledger: Ledger, report: dict[str, Any], *, note: str | None = None) -
     return report
 
 
-def write_report(path: str, text: str) -> str:
-    """Temporary file in the target folder, fsync, rename: a reader never sees half a report. Returns the
-    absolute path; raises OSError with the reason (the folder is missing, it is a folder, no permission)."""
-    path = os.path.abspath(os.path.expanduser(path))
-    folder = os.path.dirname(path)
-    if not os.path.isdir(folder):
-        raise OSError(f"folder {folder} does not exist")
-    if os.path.isdir(path):
-        raise OSError(f"{path} is a folder")
-    fd, tmp = tempfile.mkstemp(prefix=".handover-", dir=folder)
+def write_report(path: str, text: str, ledger_path: str | None = None) -> str:
+    """The report written whole (``services.outpaths``); never over the ledger, its side files or backups.
+    Returns the absolute path; raises OSError with the reason (the folder is missing, it is a folder, ...)."""
+    from ..errors import LedgerError  # noqa: PLC0415
+    from .outpaths import checked, write_atomic  # noqa: PLC0415
+
     try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
+        return write_atomic(checked(path, ledger_path, force=True), text, force=True)
+    except LedgerError as exc:
+        raise OSError(str(exc)) from None

@@ -70,7 +70,7 @@ class ExportDialog(ModalScreen[str | None]):
             self.query_one("#form-error", Static).update("Not written: give a file name.")
             return
         try:
-            written = write_file(path, render(self.report, self._fmt))
+            written = write_file(path, render(self.report, self._fmt), self.ledger_path)
         except OSError as exc:
             self.query_one("#form-error", Static).update(f"Not written: {exc.strerror or exc}")
             return

@@ -16,14 +16,81 @@ from ..errors import InputError
 from ..units import parse_quantity
 
 
+MAX_BYTES = 1 << 20
+"""A craft file is a few kilobytes; a megabyte is far beyond any real one and bounds the parser's work."""
+MAX_NODES = 20_000
+MAX_DEPTH = 32
+"""Bounds on the document as aliases would expand it: a nine-level alias 'bomb' of 517 bytes expands to
+billions of nodes; a real craft file has a few hundred at depth four or five."""
+QUOTE_CHARS = 80
+
+
+def shown(value: Any) -> str:
+    """A value for an error message: its repr, built with bounded work and cut to about 80 characters."""
+    import reprlib  # noqa: PLC0415
+
+    r = reprlib.Repr()
+    r.maxstring = r.maxother = QUOTE_CHARS
+    r.maxlevel, r.maxlist, r.maxdict = 2, 6, 6
+    text = r.repr(value)
+    return text if len(text) <= QUOTE_CHARS else text[:QUOTE_CHARS - 3] + "..."
+
+
+class _BoundedLoader(yaml.SafeLoader):
+    """Safe loading that refuses a document whose aliases would expand it beyond MAX_NODES or MAX_DEPTH,
+    measured on the node graph before anything is constructed (each shared node counted once per use)."""
+
+    def get_single_node(self):
+        node = super().get_single_node()
+        if node is not None:
+            _measure(node)
+        return node
+
+
+def _measure(root) -> None:
+    sizes: dict[int, tuple[int, int]] = {}
+
+    def walk(node, depth: int) -> tuple[int, int]:
+        if depth > MAX_DEPTH:
+            raise InputError(f"nested deeper than {MAX_DEPTH} levels")
+        known = sizes.get(id(node))
+        if known is not None:
+            return known
+        total, deepest = 1, 1
+        if isinstance(node, yaml.SequenceNode):
+            children = node.value
+        elif isinstance(node, yaml.MappingNode):
+            children = [x for pair in node.value for x in pair]
+        else:
+            children = []
+        for child in children:
+            n, d = walk(child, depth + 1)
+            total, deepest = total + n, max(deepest, d + 1)
+            if total > MAX_NODES:
+                raise InputError(f"expands to more than {MAX_NODES:,} values (aliases counted as expanded)")
+        sizes[id(node)] = (total, deepest)
+        return total, deepest
+
+    walk(root, 0)
+
+
 def load_yaml(path: str) -> Any:
     try:
-        with open(path, encoding="utf-8") as fh:
-            return yaml.safe_load(fh)
+        with open(path, "rb") as fh:
+            raw = fh.read(MAX_BYTES + 1)
+        if len(raw) > MAX_BYTES:
+            raise InputError(f"{path!r}: larger than {MAX_BYTES // 1024} KiB; not a craft file")
+        text = raw.decode("utf-8")
+        return yaml.load(text, Loader=_BoundedLoader)  # noqa: S506 - a SafeLoader subclass
+    except InputError as exc:
+        msg = str(exc)
+        raise InputError(msg if msg.startswith(repr(path)) else f"{path!r}: not a usable craft file: {msg}") from None
     except FileNotFoundError:
         raise InputError(f"{path}: no such file") from None
     except IsADirectoryError:
         raise InputError(f"{path}: is a folder, not a craft file") from None
+    except OSError as exc:
+        raise InputError(f"{path}: cannot read it ({exc.strerror or exc})") from None
     except UnicodeDecodeError:
         raise InputError(f"{path}: not a text file (expected YAML)") from None
     except yaml.YAMLError as exc:
@@ -50,7 +117,7 @@ class _Fields:
             raise InputError(f"{self.at(key)}: missing (expected text)")
         value = self.node[key]
         if isinstance(value, bool) or not isinstance(value, (str, int, float)) or str(value).strip() == "":
-            raise InputError(f"{self.at(key)}: expected non-empty text, got {value!r}")
+            raise InputError(f"{self.at(key)}: expected non-empty text, got {shown(value)}")
         text = str(value).strip()
         if not text.isprintable() or len(text) > 200:
             raise InputError(f"{self.at(key)}: expected printable text of at most 200 characters (no control "
@@ -63,7 +130,12 @@ class _Fields:
             if default is not None or not required:
                 return default
             raise InputError(f"{self.at(key)}: missing (expected a {dimension})")
-        return parse_quantity(self.node[key], dimension, self.at(key), positive=positive)
+        value = self.node[key]
+        if isinstance(value, str) and len(value) > 200:
+            raise InputError(f"{self.at(key)}: expected a {dimension} such as '12 kg', got {shown(value)}")
+        if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 1100:
+            raise InputError(f"{self.at(key)}: {shown(value)} is not a finite {dimension}")
+        return parse_quantity(value, dimension, self.at(key), positive=positive)
 
 
 def _list(src: str, doc: Mapping, key: str, required: bool = True) -> list:
@@ -127,11 +199,10 @@ def craft_from_document(doc: Any, src: str) -> Craft:
         feeds = {}
         for tank_id, parts in feeds_node.items():
             if str(tank_id) not in tank_ids:
-                raise InputError(f"{f.at('feeds')}: unknown tank '{tank_id}' (tanks: {', '.join(sorted(tank_ids))})")
+                raise InputError(f"{f.at('feeds')}: unknown tank {shown(tank_id)} (tanks: {', '.join(sorted(tank_ids))})")
             share = _mass_parts(parts)
             if share is None:
-                shown = repr(parts) if len(repr(parts)) <= 40 else repr(parts)[:37] + "..."
-                raise InputError(f"{f.at('feeds')}.{tank_id}: expected a positive number of mass parts, got {shown}")
+                raise InputError(f"{f.at('feeds')}.{tank_id}: expected a positive number of mass parts, got {shown(parts)}")
             feeds[str(tank_id)] = share
         cant = f.qty("cant", "angle", 0.0)
         if cant >= 90.0:

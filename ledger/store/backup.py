@@ -140,7 +140,9 @@ def make_backup(ledger_path: str, *, keep: int | None = None) -> str:
                              f"{lf.hint()}")
         folder = backup_folder(path)
         try:
-            os.makedirs(folder, mode=0o700, exist_ok=True)
+            from .sidefiles import private_folder  # noqa: PLC0415
+
+            private_folder(folder)
         except OSError as exc:
             raise StoreError(f"{folder}: cannot create the backup folder ({exc.strerror or exc})") from None
         durable.clean_temporaries(folder, whole_folder=True)
@@ -156,8 +158,8 @@ def make_backup(ledger_path: str, *, keep: int | None = None) -> str:
         for old in list_backups(path)[n:]:
             try:
                 os.unlink(old)
-            except FileNotFoundError:
-                pass
+            except OSError:
+                pass  # an old backup kept beyond the count does no harm
     return dest
 
 

@@ -27,6 +27,8 @@ _CACHE: dict[str, list[Any]] = {}
 """path -> [file key (device, inode, size, mtime, ctime); parsed document; the file's bytes, or their SHA-256
 once asked for]. The digest is taken on demand: the console's appends never need it, a status read does."""
 TMP_SUFFIX = ".propledger-tmp"
+CLEANUP_NOTES: list[str] = []
+"""Warnings about clean-up that failed after a write that succeeded (the ledger passes them on)."""
 
 
 # --- the raw steps (patched by fault tests) ----------------------------------------------------
@@ -211,8 +213,14 @@ def write_bytes(path: str, payload: bytes, *, exclusive: bool = False) -> None:
                          "previous file is unchanged") from None
     finally:
         for leftover in (tmp, prev):
-            if leftover is not None and os.path.lexists(leftover):
-                os.unlink(leftover)
+            if leftover is not None:
+                try:
+                    os.unlink(leftover)
+                except FileNotFoundError:
+                    pass
+                except OSError as exc:  # the write itself stands: say so, never "internal error"
+                    CLEANUP_NOTES.append(f"{leftover!r}: could not remove this temporary file after the write "
+                                         f"({_reason(exc)}); the write itself succeeded; delete it by hand")
 
 
 def _keep_previous(path: str, folder: str) -> str | None:
@@ -230,4 +238,7 @@ def _keep_previous(path: str, folder: str) -> str | None:
 def write_document(path: str, data: dict[str, Any], *, exclusive: bool = False) -> None:
     payload = encode(data)
     write_bytes(path, payload, exclusive=exclusive)
-    _CACHE[path] = [_key(os.stat(path)), data, payload]
+    try:
+        _CACHE[path] = [_key(os.stat(path)), data, payload]
+    except OSError:
+        pass  # written and acknowledged; the next read parses the file again

@@ -17,6 +17,7 @@ import orjson
 
 from ..errors import StoreError
 from . import durable
+from .sidefiles import private_folder, real
 
 HEAD_SUFFIX = ".head"
 BACKUP_SUFFIX = ".backups"
@@ -37,12 +38,12 @@ class Head:
 
 
 def backup_folder(ledger_path: str) -> str:
-    return os.path.abspath(ledger_path) + BACKUP_SUFFIX
+    return real(ledger_path) + BACKUP_SUFFIX
 
 
 def head_paths(ledger_path: str) -> tuple[str, str]:
     """Where the head is kept: the sidecar beside the ledger and the copy in the backup folder."""
-    path = os.path.abspath(ledger_path)
+    path = real(ledger_path)
     return path + HEAD_SUFFIX, os.path.join(backup_folder(path), FOLDER_HEAD)
 
 
@@ -54,6 +55,8 @@ def read_head(path: str) -> Head | None:
     """One head record, or None when there is none; an unreadable record is an error, not ignored."""
     if not os.path.lexists(path):
         return None
+    if os.path.islink(path):
+        raise StoreError(f"{path!r}: the chain head record is a symbolic link; refusing to follow it; move it aside")
     try:
         with open(path, "rb") as fh:
             data = orjson.loads(fh.read())
@@ -75,7 +78,10 @@ def read_heads(ledger_path: str) -> list[Head]:
 def write_heads(ledger_path: str, seq: int, hash_: str, genesis: str, recorded: str) -> None:
     """Record the head in both places (call under the ledger lock); files 0600, backup folder 0700."""
     folder = backup_folder(ledger_path)
-    os.makedirs(folder, mode=0o700, exist_ok=True)
+    try:
+        private_folder(folder)
+    except OSError as exc:
+        raise StoreError(f"{folder!r}: cannot use it as the backup folder ({exc.strerror or exc})") from None
     payload = orjson.dumps({"seq": seq, "hash": hash_, "genesis": genesis, "recorded": recorded,
                             "ledger": os.path.basename(ledger_path)}, option=orjson.OPT_SORT_KEYS)
     for path in head_paths(ledger_path):

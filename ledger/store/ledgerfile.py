@@ -22,6 +22,7 @@ from . import durable
 from .chain import GENESIS_PREV, Break, digest, verify_chain
 from .head import HeadMismatch, backup_folder, check_heads, head_paths, write_heads
 from .migrate import migrate_document
+from .sidefiles import real
 
 SCHEMA = 1
 META, ENTRIES = "meta", "entries"
@@ -36,7 +37,7 @@ unchanged file, served from the storage's cache, is the same object and is not w
 
 def lock_for(path: str):
     """The one lock object per ledger in this process (re-entrant; flock, freed by the kernel on death)."""
-    key = os.path.abspath(path) + ".lock"
+    key = real(path) + ".lock"
     with _LOCKS_GUARD:
         if key not in _LOCKS:
             from filelock import FileLock  # noqa: PLC0415 - reads take no lock: keep it off their path
@@ -83,8 +84,12 @@ def check_layout(doc: Mapping[str, Any], path: str) -> None:
             raise Damaged(f"{path}: entry id {key[:20]!r} is not a sequence number")
         if not isinstance(rec, dict) or rec.get("seq") != int(key) or not isinstance(rec.get("hash"), str):
             raise Damaged(f"{path}: entry {key} is malformed (not a record with its own sequence number and hash)")
+        if not isinstance(rec.get("data", _EMPTY), dict) or not isinstance(rec.get("kind"), str):
+            raise Damaged(f"{path}: integrity: entry {key} is malformed (its kind is not text or its data is not "
+                          "an object), even if its hashes link; it was not written by propledger")
 
 
+_EMPTY: dict[str, Any] = {}
 _LAST_ORDER: list[Any] = [None, -1, False]
 """[table, its size, whether its keys are "1".."N" in order] for the last table asked about (one slot: it
 holds the table, and a console left open must not keep old copies of a large ledger alive). A read asks
@@ -112,6 +117,7 @@ def _well_numbered(table: Mapping[str, Any]) -> bool:
         return False
     try:
         return all(type(rec) is dict and rec["seq"] == i and type(rec["hash"]) is str
+                   and type(rec.get("data", _EMPTY)) is dict and type(rec.get("kind")) is str
                    for i, rec in enumerate(table.values(), 1))
     except (KeyError, TypeError):
         return False
@@ -137,7 +143,7 @@ class LedgerFile:
     """A ledger on disk. Cheap to construct; every call reads the current file."""
 
     def __init__(self, path: str, lock_timeout: float = LOCK_TIMEOUT_S):
-        self.path = os.path.abspath(path)
+        self.path = real(path)  # a symbolic link is resolved once: lock, heads, backups follow the real file
         self.lock_timeout = lock_timeout
         self.notices: list[str] = []
 
@@ -169,11 +175,14 @@ class LedgerFile:
             try:
                 write_heads(path, 0, meta["hash"], meta["hash"], created)
             except BaseException:  # not created after all: leave no trace that would block the next attempt
-                for p in (path, *head_paths(path)):
-                    if os.path.lexists(p):
-                        os.unlink(p)
-                if os.path.isdir(backup_folder(path)) and not os.listdir(backup_folder(path)):
-                    os.rmdir(backup_folder(path))
+                try:
+                    for p in (path, *head_paths(path)):
+                        if os.path.lexists(p):
+                            os.unlink(p)
+                    if os.path.isdir(backup_folder(path)) and not os.listdir(backup_folder(path)):
+                        os.rmdir(backup_folder(path))
+                except OSError:
+                    pass  # the first error is the one to report
                 raise
         return lf
 
@@ -251,6 +260,7 @@ class LedgerFile:
             for p in (self.path, *head_paths(self.path)):
                 durable.clean_temporaries(p)
             doc = self.document()
+            self._check_owner()
             seq, prev = head_of(doc)
             import socket  # noqa: PLC0415 - writes only
 
@@ -279,7 +289,23 @@ class LedgerFile:
             written = durable.read_document(self.path)[ENTRIES]
             _LAID_OUT[self.path] = written
             _remember_order(written, was_in_order)
+            if durable.CLEANUP_NOTES:
+                self.notices.extend(durable.CLEANUP_NOTES)
+                durable.CLEANUP_NOTES.clear()
             return stored_all
+
+    def _check_owner(self) -> None:
+        """Refuse to write a ledger another user owns, or one others can read or write: never taken over silently."""
+        try:
+            st = os.stat(self.path)
+        except OSError as exc:
+            raise StoreError(f"{self.path!r}: cannot check it ({exc.strerror or exc}); nothing was recorded") from None
+        if st.st_uid != os.geteuid():
+            raise StoreError(f"{self.path!r}: owned by another user (uid {st.st_uid}); refusing to write it; "
+                             "nothing was recorded (open it as its owner, or copy it)")
+        if st.st_mode & 0o077:
+            raise StoreError(f"{self.path!r}: readable or writable by other users (mode {st.st_mode & 0o777:o}); "
+                             f"refusing to write it; nothing was recorded; make it private with 'chmod 600'")
 
     # --- schema migration --------------------------------------------------------------------
     def _migrate(self) -> dict[str, Any]:

@@ -39,6 +39,10 @@ MAX_SAMPLES = 1_000_000
 hundred megabytes, and 1e6 samples already put a 99.9 % bound's empirical quantile on 1,000 samples."""
 
 
+MAX_SEED = 2**63 - 1
+"""Largest seed: a signed 64-bit integer, what every JSON reader of the ledger and cache keeps exactly."""
+
+
 def validate(confidence: float, samples: int, seed: int = DEFAULT_SEED) -> None:
     if not (isinstance(confidence, float) and 0.0 < confidence < 1.0):
         raise InputError(f"--confidence: expected a probability strictly between 0 and 1 such as 0.99, got {confidence!r}")
@@ -46,8 +50,9 @@ def validate(confidence: float, samples: int, seed: int = DEFAULT_SEED) -> None:
         raise InputError(f"--samples: expected a positive number of samples, got {samples}")
     if samples > MAX_SAMPLES:
         raise InputError(f"--samples: at most {MAX_SAMPLES:,} samples per run, got {samples:,}")
-    if seed < 0:
-        raise InputError(f"--seed: expected a non-negative whole number, got {seed}")
+    if seed < 0 or seed > MAX_SEED:
+        raise InputError(f"--seed: expected a whole number from 0 to {MAX_SEED} (it is stored in the ledger's "
+                         f"JSON), got {str(seed)[:40]}")
     if (1.0 - confidence) * samples < 1.0:
         need = math.ceil(1.0 / (1.0 - confidence))
         raise InputError(f"--confidence {confidence:g} needs at least {need} samples for a low bound (--samples)")

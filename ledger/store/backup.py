@@ -173,6 +173,18 @@ def _current(lf: LedgerFile) -> tuple[bool, str | None]:
     return brk is None, None if brk is None else str(brk)
 
 
+def _newer_schema(path: str) -> int | None:
+    """The schema of a ledger written by a newer program (None when it is ours, older, or unreadable)."""
+    from .ledgerfile import SCHEMA  # noqa: PLC0415
+
+    try:
+        meta = durable.read_document(path).get(META, {}).get("1", {})
+    except (StoreError, AttributeError):
+        return None
+    schema = meta.get("schema") if isinstance(meta, dict) else None
+    return schema if isinstance(schema, int) and not isinstance(schema, bool) and schema > SCHEMA else None
+
+
 def restore(ledger_path: str, source: str | None = None, *, force: bool = False) -> Restored:
     """Put a good backup back at the ledger path; whatever was there is renamed aside, never deleted.
 
@@ -181,6 +193,11 @@ def restore(ledger_path: str, source: str | None = None, *, force: bool = False)
     lf = LedgerFile(ledger_path)
     path = lf.path
     with lf.locked():
+        newer = _newer_schema(path)
+        if newer is not None and not force:
+            raise InputError(f"{path!r}: written by a newer propledger (schema {newer}); it is not damaged, this "
+                             "program cannot read it; upgrade instead, or add --force to replace it with a backup "
+                             "(it is kept aside)")
         intact, _problem = _current(lf)
         if intact and not force:
             raise InputError(f"{path}: the ledger is intact (it reads and its chain verifies); restoring would "
@@ -204,18 +221,23 @@ def restore(ledger_path: str, source: str | None = None, *, force: bool = False)
         raw = durable.read_bytes(info.path)
         aside = None
         if os.path.lexists(path):
+            # The old file keeps its name until the one rename below; a hard link keeps it aside as well.
             aside = _unique(os.path.dirname(path), f"{path}.{'replaced' if intact else 'damaged'}-"
                             + datetime.now(timezone.utc).strftime("%Y%m%dT%H%M%SZ"), "")
             try:
-                os.rename(path, aside)
+                if os.path.isfile(path) and not os.path.islink(path):
+                    durable.link(path, aside)
+                else:  # a folder or other non-file at the ledger path: it can only be moved
+                    os.rename(path, aside)
+                durable.fsync_dir(os.path.dirname(path))
             except OSError as exc:
-                raise StoreError(f"{path}: cannot move it aside ({exc.strerror or exc}); nothing was changed") from None
-        try:
-            durable.write_bytes(path, raw, exclusive=True)
-        except BaseException:
-            if aside is not None and not os.path.lexists(path):
-                os.rename(aside, path)
-            raise
+                raise StoreError(f"{path!r}: cannot keep it aside ({exc.strerror or exc}); nothing was changed") from None
+        old = max(heads, key=lambda h: h.seq) if heads else None
+        # 1. heads accept the old ledger and the restored one; 2. one rename puts the backup in place;
+        # 3. heads name the restored ledger only. A crash anywhere leaves the old state or the new one.
+        write_heads(path, info.seq, info.head, info.genesis, utc_stamp(),
+                    alt=old if old is not None else None)
+        durable.write_bytes(path, raw)
         write_heads(path, info.seq, info.head, info.genesis, utc_stamp())
     recorded = max((h.seq for h in heads), default=None)
     return Restored(info.path, aside, info.seq, recorded)

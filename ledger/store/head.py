@@ -35,6 +35,9 @@ class Head:
     genesis: str
     recorded: str = ""
     source: str = ""
+    alt: "Head | None" = None
+    """During a restore only: the head before it, also accepted, so a crash between writing the head
+    records and renaming the restored file into place leaves the old state readable."""
 
 
 def backup_folder(ledger_path: str) -> str:
@@ -68,22 +71,31 @@ def read_head(path: str) -> Head | None:
             or not _is_hash(data.get("genesis"))):
         raise StoreError(f"{path}: the chain head record is malformed; if you trust the ledger, move this "
                          "file aside and run 'propledger verify' then 'propledger backup'")
-    return Head(seq, data["hash"], data["genesis"], str(data.get("recorded", "")), path)
+    alt = data.get("alt")
+    alt_head = None
+    if isinstance(alt, dict) and isinstance(alt.get("seq"), int) and _is_hash(alt.get("hash")) \
+            and _is_hash(alt.get("genesis")):
+        alt_head = Head(alt["seq"], alt["hash"], alt["genesis"], str(data.get("recorded", "")), path)
+    return Head(seq, data["hash"], data["genesis"], str(data.get("recorded", "")), path, alt_head)
 
 
 def read_heads(ledger_path: str) -> list[Head]:
     return [h for h in (read_head(p) for p in head_paths(ledger_path)) if h is not None]
 
 
-def write_heads(ledger_path: str, seq: int, hash_: str, genesis: str, recorded: str) -> None:
+def write_heads(ledger_path: str, seq: int, hash_: str, genesis: str, recorded: str,
+                alt: Head | None = None) -> None:
     """Record the head in both places (call under the ledger lock); files 0600, backup folder 0700."""
     folder = backup_folder(ledger_path)
     try:
         private_folder(folder)
     except OSError as exc:
         raise StoreError(f"{folder!r}: cannot use it as the backup folder ({exc.strerror or exc})") from None
-    payload = orjson.dumps({"seq": seq, "hash": hash_, "genesis": genesis, "recorded": recorded,
-                            "ledger": os.path.basename(ledger_path)}, option=orjson.OPT_SORT_KEYS)
+    record = {"seq": seq, "hash": hash_, "genesis": genesis, "recorded": recorded,
+              "ledger": os.path.basename(ledger_path)}
+    if alt is not None:
+        record["alt"] = {"seq": alt.seq, "hash": alt.hash, "genesis": alt.genesis}
+    payload = orjson.dumps(record, option=orjson.OPT_SORT_KEYS)
     for path in head_paths(ledger_path):
         durable.write_bytes(path, payload)
 
@@ -91,6 +103,8 @@ def write_heads(ledger_path: str, seq: int, hash_: str, genesis: str, recorded: 
 def check_heads(ledger_path: str, meta: Mapping[str, Any], entries: Mapping[str, Any]) -> None:
     """Raise HeadMismatch unless the ledger holds every head recorded for it, unchanged."""
     for head in read_heads(ledger_path):
+        if head.alt is not None and _holds(head.alt, meta, entries):
+            continue
         when = f" (recorded {head.recorded})" if head.recorded else ""
         if meta.get("hash") != head.genesis:
             raise HeadMismatch(
@@ -108,3 +122,12 @@ def check_heads(ledger_path: str, meta: Mapping[str, Any], entries: Mapping[str,
             raise HeadMismatch(
                 f"{ledger_path}: entry {head.seq} differs from the head record {head.source}{when}: "
                 "the ledger was rewritten")
+
+
+def _holds(head: Head, meta: Mapping[str, Any], entries: Mapping[str, Any]) -> bool:
+    if meta.get("hash") != head.genesis:
+        return False
+    if head.seq == 0:
+        return True
+    rec = entries.get(str(head.seq))
+    return isinstance(rec, Mapping) and rec.get("hash") == head.hash

@@ -232,3 +232,67 @@ def test_quantities_with_units(value, dimension, signed, positive):
         assert si > 0
     if dimension == "temperature":
         assert si > 0
+
+
+# --- hostile craft shapes and file names (issue 16, point 7) ---------------------------------------
+def _bomb(levels: int, width: int) -> str:
+    names = [f"n{i}" for i in range(levels)]
+    lines = [f"{names[0]}: &{names[0]} [" + ", ".join(["x"] * width) + "]"]
+    for p, c in zip(names, names[1:]):
+        lines.append(f"{c}: &{c} [" + ", ".join([f"*{p}"] * width) + "]")
+    return "\n".join(lines) + "\n"
+
+
+HOSTILE_CRAFT = st.one_of(
+    st.builds(_bomb, st.integers(2, 12), st.integers(2, 12)),
+    st.integers(40, 3000).map(lambda d: "craft: " + "[" * d + "]" * d + "\n"),
+    st.integers(40, 3000).map(lambda d: "craft: " + "{a: " * d + "1" + "}" * d + "\n"),
+    st.integers(300, 6000).map(lambda n: CRAFT_YAML.replace("1200 kg", "9" * n)),
+    st.sampled_from(["1e999", "-1e999", ".inf", ".nan", "0x" + "f" * 400, "1" + "0" * 310 + " kg"]).map(
+        lambda v: CRAFT_YAML.replace("1200 kg", v)),
+)
+
+
+@settings(max_examples=30, **SETTINGS)
+@given(text=HOSTILE_CRAFT)
+def test_hostile_craft_files(text):
+    folder = tempfile.mkdtemp(prefix="fuzz-hostile-")
+    try:
+        craft = os.path.join(folder, "craft.yaml")
+        with open(craft, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        path = os.path.join(folder, "l.json")
+        code, out, err = run("--ledger", path, "init", "--craft", craft)
+        _sane(code, out, err)
+        assert code in (0, 2) and len(err) < 600
+        if code == 2:
+            assert not os.path.exists(path)
+    finally:
+        shutil.rmtree(folder, ignore_errors=True)
+
+
+NAME_CHARS = st.sampled_from(["\x1b[31m", "\x07", "\r", "\n", "\t", " ", "'", '"', "$(id)", "`", ";", "*", "?",
+                              "é", "\u202e", "..", "-", "--", "a"])
+
+
+@settings(max_examples=40, **SETTINGS)
+@given(name=st.lists(NAME_CHARS, min_size=1, max_size=6).map("".join))
+def test_hostile_file_names(name):
+    folder = tempfile.mkdtemp(prefix="fuzz-names-")
+    try:
+        craft = os.path.join(folder, "craft.yaml")
+        with open(craft, "w", encoding="utf-8") as fh:
+            fh.write(CRAFT_YAML)
+        base = name.replace("/", "_").replace("\x00", "_")
+        if base in ("", ".", ".."):
+            base = "x" + base
+        path = os.path.join(folder, base)
+        for argv in (["init", "--craft", craft], ["status", "--samples", "200", "--confidence", "0.9"],
+                     ["burn", "--engine", "lae", "--dv", "1"], ["backup"], ["verify"],
+                     ["handover", "--from", "A", "--to", "B", "--no-record", "--out", path + ".out"]):
+            code, out, err = run("--ledger", path, *argv)
+            _sane(code, out, err)
+            assert "\x1b" not in err and "\x07" not in err, (argv, err)
+            assert code in (0, 1, 2), (argv, err)
+    finally:
+        shutil.rmtree(folder, ignore_errors=True)

@@ -17,7 +17,7 @@ from datetime import datetime, timezone
 from ..errors import InputError, StoreError
 from . import durable
 from .chain import verify_chain
-from .head import backup_folder, read_heads, write_heads
+from .head import backup_folder, head_paths, read_heads, write_heads
 from .ledgerfile import META, LedgerFile, check_layout, head_of, ordered, utc_stamp
 
 DEFAULT_KEEP = 10
@@ -219,6 +219,7 @@ def restore(ledger_path: str, source: str | None = None, *, force: bool = False)
             if info is None:
                 raise StoreError(f"{path}: no good backup in {backup_folder(path)}; nothing was changed")
         raw = durable.read_bytes(info.path)
+        saved = {p: (durable.read_bytes(p) if os.path.isfile(p) else None) for p in head_paths(path)}
         aside = None
         if os.path.lexists(path):
             # The old file keeps its name until the one rename below; a hard link keeps it aside as well.
@@ -231,13 +232,34 @@ def restore(ledger_path: str, source: str | None = None, *, force: bool = False)
                     os.rename(path, aside)
                 durable.fsync_dir(os.path.dirname(path))
             except OSError as exc:
+                try:
+                    if os.path.lexists(aside) and os.path.lexists(path):
+                        os.unlink(aside)
+                    elif os.path.lexists(aside):
+                        os.rename(aside, path)
+                except OSError:
+                    pass
                 raise StoreError(f"{path!r}: cannot keep it aside ({exc.strerror or exc}); nothing was changed") from None
         old = max(heads, key=lambda h: h.seq) if heads else None
+        moved = aside is not None and not os.path.lexists(path)
         # 1. heads accept the old ledger and the restored one; 2. one rename puts the backup in place;
         # 3. heads name the restored ledger only. A crash anywhere leaves the old state or the new one.
-        write_heads(path, info.seq, info.head, info.genesis, utc_stamp(),
-                    alt=old if old is not None else None)
-        durable.write_bytes(path, raw)
+        try:
+            write_heads(path, info.seq, info.head, info.genesis, utc_stamp(), alt=old)
+            durable.write_bytes(path, raw)
+        except BaseException:  # not restored: put the head records and the file's name back as they were
+            try:
+                for p, data in saved.items():
+                    if data is None:
+                        if os.path.lexists(p):
+                            os.unlink(p)
+                    else:
+                        durable.write_bytes(p, data)
+                if aside is not None:
+                    os.rename(aside, path) if moved else os.unlink(aside)
+            except OSError:
+                pass  # the first error is the one to report; the old state still reads as it did
+            raise
         write_heads(path, info.seq, info.head, info.genesis, utc_stamp())
     recorded = max((h.seq for h in heads), default=None)
     return Restored(info.path, aside, info.seq, recorded)

@@ -83,3 +83,19 @@ def test_escape_sequences_in_a_path_never_reach_the_terminal(tmp_path):
     bad = str(tmp_path / "l\x1b[31m.json")
     code, _, err = run("--ledger", bad, "status")
     assert code == 2 and "\x1b" not in err and err.count("\n") == 1
+
+
+def test_a_ledger_of_a_newer_schema_is_never_rolled_back_without_force(ledger):
+    assert run("--ledger", ledger, "backup")[0] == 0
+    doc = orjson.loads(open(ledger, "rb").read())
+    doc["meta"]["1"]["schema"] = 99  # what a newer propledger would write
+    open(ledger, "wb").write(orjson.dumps(doc))
+    durable._CACHE.clear()
+    before = folder_state(os.path.dirname(ledger))
+    code, _, err = run("--ledger", ledger, "restore")
+    assert code == 2 and "newer propledger" in err and "--force" in err
+    assert folder_state(os.path.dirname(ledger)) == before
+    code, out, err = run("--ledger", ledger, "restore", "--force", "--json")
+    assert code == 0, err
+    aside = json.loads(out)["kept_aside"]
+    assert orjson.loads(open(aside, "rb").read())["meta"]["1"]["schema"] == 99  # named, and kept whole

@@ -253,7 +253,7 @@ HOSTILE_CRAFT = st.one_of(
 )
 
 
-@settings(max_examples=30, **SETTINGS)
+@settings(max_examples=20, **SETTINGS)
 @given(text=HOSTILE_CRAFT)
 def test_hostile_craft_files(text):
     folder = tempfile.mkdtemp(prefix="fuzz-hostile-")
@@ -275,7 +275,7 @@ NAME_CHARS = st.sampled_from(["\x1b[31m", "\x07", "\r", "\n", "\t", " ", "'", '"
                               "é", "\u202e", "..", "-", "--", "a"])
 
 
-@settings(max_examples=40, **SETTINGS)
+@settings(max_examples=30, **SETTINGS)
 @given(name=st.lists(NAME_CHARS, min_size=1, max_size=6).map("".join))
 def test_hostile_file_names(name):
     folder = tempfile.mkdtemp(prefix="fuzz-names-")

@@ -32,3 +32,12 @@ def test_status_shows_the_low_bound_run_out_date_beside_the_nominal(tmp_path):
     assert row["low"]["runs_out"] < row["runs_out"]
     text = run("--ledger", path, "status", "--samples", "2000", check=True).stdout
     assert "low bound at 99%" in text and row["low"]["runs_out"][:10] in text
+
+
+def test_check_with_no_failing_sample_shows_a_bound(tmp_path):
+    path = _ledger(tmp_path)
+    out = run("--ledger", path, "check", "--engine", "lae", "--dv", "1 m/s", "--samples", "10000", check=True).stdout
+    # 10,000 samples, none failing: the 95 % Wilson lower bound is n/(n + z^2) = 0.99962 (Wilson 1927, JASA
+    # 22:209), so the text may claim p > 0.9996 and no more.
+    assert "p > 0.9996" in out
+    assert "1.0000" not in out and "± 0.0000" not in out

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from ..core.entries import APPROVE, REJECT
 from ..services import approvals, uncertainty
+from ..services.probtext import prob_text
 from .common import console, dump_json, esc, open_ledger, warn
 from .progress import Progress
 
@@ -46,7 +47,7 @@ def _decide(args, kind: str) -> int:
     word = "approved" if kind == APPROVE else "rejected"
     out = console()
     out.print(f"plan {stored['data']['plan']} {word} by {esc(stored['by'])} (entry {stored['seq']}); check "
-              f"{check['verdict']}, reserves intact with probability {check['probability']:.4f} "
+              f"{check['verdict']}, reserves intact with {prob_text(check['probability'], check.get('samples'))} "
               f"(confidence {check['confidence']:g}), dv free after {check['dv_free_after_m_s']:.2f} m/s")
     warn(warnings)
     out.print(f"[dim]{esc(check['caution'])}[/]")

@@ -4,6 +4,7 @@ from __future__ import annotations
 import sys
 
 from ..services import uncertainty, views
+from ..services.probtext import prob_text
 from .approvals import add_confidence_options
 from .common import add_json, console, dump_json, esc, open_ledger, qty
 from .progress import Progress
@@ -95,7 +96,7 @@ def print_status(data: dict) -> None:
     if low:
         u = data["uncertainty"]
         out.print(f"[dim]{low}: value exceeded with probability {data['confidence']:g} over {u['samples']} samples "
-                  f"(seed {u['seed']}); reserves flyable now with probability {u['reserves_probability']:.4f}[/]")
+                  f"(seed {u['seed']}); reserves flyable now with {prob_text(u['reserves_probability'], u['samples'])}[/]")
     if data["reserves"]:
         out.print("Reserves held back: " + "; ".join(
             f"{esc(r['id'])} {r['dv_m_s']:.2f} m/s on {esc(r['engine'])}" for r in data["reserves"]))
@@ -143,7 +144,7 @@ def cmd_check(args) -> int:
         plans = "approved pending plan(s)" if args.approved_only else "pending plan(s)"
         out.print(f"[{style}]{data['verdict'].upper()}[/]  {esc(args.engine)} {dv:.3f} m/s "
                   f"after {len(data['commitments'])} {plans}")
-        out.print(f"reserves intact with probability {data['probability']:.4f} (±{data['probability_se']:.4f}); "
+        out.print(f"reserves intact with {prob_text(data['probability'], data.get('samples'))}; "
                   f"confidence asked {data['confidence']:g}")
         out.print(f"propellant needed {data['propellant_kg']:.3f} kg (" + ", ".join(
             f"{esc(t)} {kg:.3f}" for t, kg in data["propellant_by_tank_kg"].items()) + ")")

@@ -9,7 +9,8 @@ A simple model, stated so an engineer can check it (a fuller Monte Carlo may rep
   the account.
 - D_et: propellant engine e drew from tank t since then (replay).
 - r_e: the engine's flow-model error as a fraction, its ``isp_sigma / isp`` from the craft file, else
-  2 % (Isp and flow-model bias 1-3 %, FIELD.md section 7, from memory).
+  the sampler's default (core.sigmas: Isp 1 %).
+- plus each burn's own amount sigma (entry --sigma or core.sigmas' default), independent per burn.
 
 Why per engine and not per burn: the flow-model error is mostly a bias of the engine's Isp and thrust
 curves, shared by all its burns, so it grows with what the engine drew (the "integral of model bias",
@@ -26,23 +27,24 @@ import numpy as np
 from .craft import Craft
 from .entries import Entry
 from .replay import STEP_REBASE, Replay, Steps
+from .entries import AMOUNT_FIELDS
+from .sigmas import CRAFT_DEFAULTS, craft_sigmas, entry_sigma
 
-DEFAULT_LOAD_SIGMA_REL = 0.001
-"""Loaded mass by weighing, ~0.1 % (FIELD.md section 7) [memory]."""
-DEFAULT_FLOW_ERROR_REL = 0.02
-"""Isp/thrust flow-model bias 1-3 %, middle taken (FIELD.md section 7) [memory]."""
+DEFAULT_LOAD_SIGMA_REL = CRAFT_DEFAULTS["load"].relative
+DEFAULT_FLOW_ERROR_REL = CRAFT_DEFAULTS["isp"].relative
+"""The Monte Carlo's own defaults (core.sigmas): one bookkeeping sigma for the gauge check and the low
+bounds (issue 11, point 14). A separate 2 % rule here once gave a sigma ~1.8x the sampler's."""
 
 
 def load_sigmas(craft: Craft) -> np.ndarray:
     """Per-tank load sigma in kg: the craft file's value, else the default fraction of the load."""
-    return np.array([t.load_sigma_kg if t.load_sigma_kg is not None else DEFAULT_LOAD_SIGMA_REL * t.load_kg
-                     for t in craft.tanks], dtype=float)
+    return np.array(craft_sigmas(craft).load_kg, dtype=float)
 
 
 def flow_error_rel(craft: Craft) -> np.ndarray:
     """Per-engine relative flow-model error: isp_sigma/isp where given, else the default."""
-    return np.array([e.isp_sigma_s / e.isp_s if e.isp_sigma_s is not None else DEFAULT_FLOW_ERROR_REL
-                     for e in craft.engines], dtype=float)
+    sig = craft_sigmas(craft)
+    return np.array([sig.isp_s[i] / e.isp_s for i, e in enumerate(craft.engines)], dtype=float)
 
 
 def bookkeeping_sigma(craft: Craft, events: Sequence[Entry], steps: Steps, rep: Replay,
@@ -60,12 +62,32 @@ def bookkeeping_sigma(craft: Craft, events: Sequence[Entry], steps: Steps, rep: 
             t = int(steps.tank[i])
             start[t] = i + 1
             sig0[t] = float(events[i].data["sigma_kg"])
-    rel = flow_error_rel(craft)
+    sig = craft_sigmas(craft)
+    isp_rel = flow_error_rel(craft)
+    thrust_rel = np.array([sig.thrust_n[i] / e.thrust_n if e.thrust_n else 0.0
+                           for i, e in enumerate(craft.engines)], dtype=float)
     var = sig0 ** 2
+    n_e = len(craft.engines)
     for t in range(len(craft.tanks)):
-        engine = steps.engine[start[t]:n]
-        fired = engine >= 0
-        per_engine = np.bincount(engine[fired], weights=rep.drawn[start[t]:n, t][fired],
-                                 minlength=len(craft.engines))
-        var[t] += float(np.sum((rel * per_engine) ** 2))
+        # As the sampler draws it: a burn quoted in delta-v or duration carries its engine's Isp bias (and a
+        # duration the thrust bias: flow = F / (Isp g0)); one quoted in propellant carries neither. Shared
+        # by all the engine's burns, so it grows with what the engine drew. On top, each burn's own amount
+        # error (entry --sigma, else core.sigmas' default share), independent between burns.
+        by_isp = np.zeros(n_e)
+        by_thrust = np.zeros(n_e)
+        own = 0.0
+        for i in range(start[t], n):
+            e = int(steps.engine[i])
+            if e < 0:
+                continue
+            drawn = float(rep.drawn[i, t])
+            data = events[i].data
+            field = next((f for f in AMOUNT_FIELDS if data.get(f) is not None), None)
+            if field in ("dv", "duration"):
+                by_isp[e] += drawn
+            if field == "duration":
+                by_thrust[e] += drawn
+            if field is not None and float(data[field]):
+                own += (entry_sigma(data, field) / abs(float(data[field])) * drawn) ** 2
+        var[t] += float(np.sum((isp_rel * by_isp) ** 2) + np.sum((thrust_rel * by_thrust) ** 2)) + own
     return np.sqrt(var)

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from typing import Any, Mapping
+from ..services.probtext import prob_text
 
 NONE = "-"
 
@@ -163,7 +164,7 @@ def _plans(r: Mapping[str, Any]) -> list[Block]:
         c = p["check"]
         line = f"#{p['id']}: {c.get('reason', '')}; after {c.get('commitments', 0)} other pending plan(s)"
         if c.get("probability") is not None:
-            line += f"; probability {c['probability']:.4f}"
+            line += f"; {prob_text(c['probability'], c.get('samples'), prefix='probability ')}"
         if p.get("overdue"):
             line += "; OVERDUE"
         line += f"; by {p['by']}" + (f"; note: {p['note']}" if p.get("note") else "")

@@ -13,6 +13,7 @@ from ..errors import InputError
 from . import uncertainty
 from .ledger import Ledger
 from .records import clean_text, plan_ref
+from .probtext import prob_text
 
 if TYPE_CHECKING:
     from ..core import montecarlo as mc
@@ -44,5 +45,5 @@ def decide(ledger: Ledger, kind: str, plan: Any, by: str | None, note: str | Non
     stored, warnings = ledger.record(kind, data, by=by, note=note, snap=snap)
     if kind == APPROVE and check["verdict"] != "feasible":
         warnings = [f"plan {seq} approved although its check is {check['verdict']} "
-                    f"(probability {check['probability']:.4f} at confidence {confidence:g})", *warnings]
+                    f"({prob_text(check['probability'], check.get('samples'))} at confidence {confidence:g})", *warnings]
     return stored, check, warnings

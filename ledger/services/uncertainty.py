@@ -14,6 +14,7 @@ from ..core import capability as cap
 from ..core.entries import APPROVE, DECISIONS
 from ..errors import InputError
 from .ledger import Snapshot
+from .forecast import forecast
 from .timefmt import iso
 from .views import CAUTION, status
 
@@ -206,6 +207,9 @@ def status_with_confidence(snap: Snapshot, confidence: float = DEFAULT_CONFIDENC
     for eid, e in data["engines"].items():
         e["dv_free_low_m_s"] = u["engines"][eid]["dv_free_low_m_s"]
         e["dv_available_low_m_s"] = u["engines"][eid]["dv_available_low_m_s"]
+    # views.status built the forecast before any low bound existed: rebuild it now that they do, so the
+    # low-bound run-out date sits beside the nominal one (issue 11, point 5).
+    data["forecast"] = forecast(snap, data)
     for row in data["pending_plans"]:
         a = u["approvals"][str(row["id"])]
         row["approval"] = a["approval"]

@@ -15,6 +15,7 @@ from typing import Any, Callable
 
 from ..errors import LedgerError
 from ..services import uncertainty
+from ..services.probtext import prob_text
 from ..services.forecast import forecast
 from ..services.ledger import Snapshot
 
@@ -159,7 +160,7 @@ class LowBounds:
     def summary(self) -> str:
         if self.result is not None:
             r = self.result
-            return (f"reserves intact p {r['reserves_probability']:.4f} · {r['samples']:,} samples, "
+            return (f"reserves intact {prob_text(r['reserves_probability'], r['samples'])} · {r['samples']:,} samples, "
                     f"seed {r['seed']}")
         if self.error is not None:
             return f"low bounds not available: {self.error}"

@@ -12,7 +12,7 @@ from tests.helpers import T0, ev
 
 # Dry 100 kg; tank a 50 kg (load sigma 0.05 kg given), tank b 30 kg (no sigma: 0.1 % default = 0.03 kg).
 # Engine e draws half from each tank, Isp 200 s +- 6 s (3 % flow-model error); engine f draws from a only,
-# Isp 250 s with no sigma (2 % default).
+# Isp 250 s with no sigma (1 % default, core.sigmas: the Monte Carlo's). Amount sigmas: 1 % default.
 CRAFT = Craft("hand", 100.0, (Tank("a", "hydrazine", 50.0, load_sigma_kg=0.05), Tank("b", "hydrazine", 30.0)),
               (Engine("e", 200.0, 10.0, {"a": 1.0, "b": 1.0}, isp_sigma_s=6.0), Engine("f", 250.0, 5.0, {"a": 1.0})))
 VE_F = 250.0 * G0
@@ -65,21 +65,23 @@ def test_bookkeeping_sigma_worked_by_hand():
     events = resolve(history()).events
     steps = steps_from_events(CRAFT, events)
     rep = replay(CRAFT, events, steps)
-    assert DEFAULT_LOAD_SIGMA_REL == 0.001 and DEFAULT_FLOW_ERROR_REL == 0.02
+    assert DEFAULT_LOAD_SIGMA_REL == 0.001 and DEFAULT_FLOW_ERROR_REL == 0.01
     # Nothing burnt: the load sigmas, 0.05 kg and 0.1 % of 30 kg.
     assert bookkeeping_sigma(CRAFT, events, steps, rep, upto=0) == pytest.approx([0.05, 0.03])
-    # After burn 1 (e drew 5 kg from each tank, 3 %): a sqrt(0.05^2 + 0.15^2) = 0.158114,
-    # b sqrt(0.03^2 + 0.15^2) = 0.152971.
-    assert bookkeeping_sigma(CRAFT, events, steps, rep, upto=1) == pytest.approx([0.158114, 0.152971], abs=1e-6)
-    # Everything: a restarts at its re-baseline (0.4 kg), then f drew 10 kg (2 %: 0.2) and e 1 kg (3 %: 0.03):
-    # sqrt(0.16 + 0.04 + 0.0009) = 0.448219. b restarts at 0.3 kg, then e drew 1 kg: sqrt(0.09 + 0.0009) = 0.301496.
-    assert bookkeeping_sigma(CRAFT, events, steps, rep) == pytest.approx([0.448219, 0.301496], abs=1e-6)
+    # After burn 1 (quoted in propellant: no Isp bias; its own 1 % of the 5 kg drawn from each tank, 0.05):
+    # a sqrt(0.05^2 + 0.05^2) = 0.070711, b sqrt(0.03^2 + 0.05^2) = 0.058310.
+    assert bookkeeping_sigma(CRAFT, events, steps, rep, upto=1) == pytest.approx([0.070711, 0.058310], abs=1e-6)
+    # Everything: a restarts at its re-baseline (0.4 kg), then f's dv burn drew 10 kg (Isp bias 1 %: 0.1, own
+    # 1 %: 0.1) and e's use 1 kg (own 1 %: 0.01): sqrt(0.16 + 0.01 + 0.01 + 0.0001) = 0.424382.
+    # b restarts at 0.3 kg, then e drew 1 kg: sqrt(0.09 + 0.0001) = 0.300167.
+    assert bookkeeping_sigma(CRAFT, events, steps, rep) == pytest.approx([0.424382, 0.300167], abs=1e-6)
 
 
-def test_flow_error_of_one_engine_adds_linearly_over_its_burns():
-    # Burns 1 and 6 only: engine e drew 5 + 1 = 6 kg from a. One bias for the engine: 3 % of 6 kg = 0.18 kg,
-    # so sqrt(0.05^2 + 0.18^2) = 0.186815 (independent per-burn errors would give sqrt(0.05^2+0.15^2+0.03^2)).
+def test_burns_quoted_in_propellant_carry_only_their_own_independent_errors():
+    # Burns 1 and 6 only, both quoted in kg: no Isp bias (the sampler draws none for them), own 1 % each:
+    # sqrt(0.05^2 + 0.05^2 + 0.01^2) = 0.071414. The engine bias adding linearly over dv burns is checked
+    # against the Monte Carlo in tests/services/test_one_booksigma.py.
     events = resolve([e for e in history() if e.seq in (1, 6)]).events
     steps = steps_from_events(CRAFT, events)
     sigma = bookkeeping_sigma(CRAFT, events, steps, replay(CRAFT, events, steps))
-    assert sigma[0] == pytest.approx(0.186815, abs=1e-6)
+    assert sigma[0] == pytest.approx(0.071414, abs=1e-6)

@@ -13,6 +13,7 @@ from ledger.services import uncertainty
 from ledger.tui import lows
 from ledger.tui.app import make_app
 from ledger.tui.dialogs.check import CheckDialog
+from ledger.services.probtext import prob_text
 from ledger.tui.widgets.state import EngineTable, TankGauges
 from tui_support import lows_done, ready, run, type_text, until
 
@@ -52,7 +53,7 @@ def test_first_paint_does_not_wait_then_low_bounds_appear_with_progress(ledger_p
             rows = [ln for ln in str(app.main.query_one(EngineTable).render()).splitlines()
                     if ln.split(" ")[0] in ref["engines"]]
             assert len(rows) == 2 and not any("…" in ln for ln in rows)
-            assert f"reserves intact p {ref['reserves_probability']:.4f}" in panels(app)
+            assert f"reserves intact {prob_text(ref['reserves_probability'], ref['samples'])}" in panels(app)
 
     run(go())
 

@@ -197,10 +197,13 @@ def test_first_run_creates_the_ledger_from_a_craft_file(tmp_path):
     assert count(path) == 0
 
 
-def test_first_run_creates_the_ledger_from_a_bundled_scenario(tmp_path, monkeypatch):
+def test_first_run_opens_a_bundled_scenario_as_a_demo_and_never_writes_the_real_ledger(tmp_path, monkeypatch):
+    """Issue 11 point 11: a scenario is invented data; it opens from a temporary folder, marked DEMO DATA,
+    the real ledger path stays empty, and the temporary folder is gone when the console exits."""
     from ledger.services import scenario  # noqa: PLC0415
     monkeypatch.setattr(scenario, "bundled", lambda: {"testbed": CRAFT})
     path = str(tmp_path / "from-scenario.json")
+    seen = {}
 
     async def go():
         app = make_app(path)
@@ -210,9 +213,23 @@ def test_first_run_creates_the_ledger_from_a_bundled_scenario(tmp_path, monkeypa
             await pilot.press("down", "enter")
             await ready(app, pilot)
             assert isinstance(app.screen, MainScreen) and app.snap.craft.name == "Testbed-7"
+            assert "DEMO DATA" in str(app.main.query_one("#masthead", Static).render())
+            seen["folder"], seen["path"] = app.demo_folder, app.path
+            assert os.path.exists(app.path) and os.path.abspath(app.path) != os.path.abspath(path)
 
     run(go())
-    assert os.path.exists(path)
+    assert not os.path.exists(path)
+    assert not os.path.exists(seen["folder"])
+
+
+def test_a_real_ledger_is_not_marked_as_demo_data(ledger_path):
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(100, 30)) as pilot:
+            await ready(app, pilot)
+            assert "DEMO DATA" not in str(app.main.query_one("#masthead", Static).render())
+
+    run(go())
 
 
 def test_mouse_picks_a_row_and_opens_it_and_columns_scroll(ledger_path):

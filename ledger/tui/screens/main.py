@@ -122,6 +122,8 @@ class MainScreen(Screen):
         width = self.size.width or 80
         mast = Text(no_wrap=True)
         mast.append(" ◆ propledger ", style="bold reverse")
+        if getattr(self.app, "demo", False):
+            mast.append(" DEMO DATA ", style="bold black on yellow")
         mast.append(f" {craft} ", style="bold")
         for part in parts:
             if mast.cell_len + len(part) + 3 > width:

@@ -247,7 +247,8 @@ class LedgerConsole(App):
             self.open_form(result[0], result[1])
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
-        yield from super().get_system_commands(screen)
+        # Textual's own screenshot command saves an SVG to a folder the user did not choose: left out
+        yield from (c for c in super().get_system_commands(screen) if "screenshot" not in c.title.lower())
         if self.main is None:
             return
         for a in actions.ACTIONS:

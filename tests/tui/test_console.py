@@ -175,6 +175,44 @@ def test_every_action_has_a_key_bar_entry_and_a_palette_command(ledger_path):
     run(go())
 
 
+def test_footer_at_80x24_has_whole_words_and_palette_has_no_screenshot(ledger_path):
+    """Issue 11 point 10: every footer label shown at 80x24 is a whole word, every key is shown on at most
+    two lines, and the palette offers no screenshot command (it wrote files to an unchosen folder)."""
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            bar = app.main.query_one("#keys")
+            shown = str(bar.render()).split()
+            for bad in ("Wdrw", "Hand", "Rebase", "Corr", "Alrt", "Cmds"):
+                assert bad not in shown, bad
+            assert bar.size.height <= 2
+            for a in actions.ACTIONS:
+                assert a.label in shown or a.label in str(bar.render()), a.label
+            titles = [c.title.lower() for c in app.get_system_commands(app.screen)]
+            assert not any("screenshot" in t for t in titles)
+
+    run(go())
+
+
+def test_escape_clears_a_find_after_enter_moved_focus_to_the_ledger(ledger_path):
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            total = len(app.main.window.sel)
+            await pilot.press("slash")
+            await type_text(pilot, "rcs")
+            await pilot.press("enter")
+            await pilot.pause(0.3)
+            assert len(app.main.window.sel) < total
+            await pilot.press("escape")  # the ledger has the focus now
+            await pilot.pause(0.3)
+            assert len(app.main.window.sel) == total and app.main.find_text == ""
+
+    run(go())
+
+
 def test_first_run_creates_the_ledger_from_a_craft_file(tmp_path):
     path = str(tmp_path / "sub" / "new.json")
 

@@ -23,7 +23,7 @@ from ..widgets.window import Window, cells, columns
 
 KIND_CYCLE = (None, "burn", "plan", "mass", "use", "withdraw", "correct", "gauge", "approve", "handover")
 KEYS = [(a.key_display or a.key, a.label, f"screen.{a.name}", a.short) for a in actions.ACTIONS] + [
-    ("^p", "Commands", "app.command_palette", "Cmds")]
+    ("^p", "Commands", "app.command_palette", "Menu")]
 SHORT_CAUTION = ("⚠ Decision support only: verify against the mission's flight-dynamics system of record, "
                  "its mission rules and the responsible engineers.")
 
@@ -215,9 +215,10 @@ class MainScreen(Screen):
             self.update_pager()
 
     def key_escape(self) -> None:
+        """Esc clears a find, whether the find box or the ledger has the focus."""
         box = self.query_one("#find", Input)
-        if box.has_focus:
-            if box.value:
+        if box.has_focus or self.find_text or box.value:
+            if box.value or self.find_text:
                 box.value = ""
                 self._apply_find()
             self.query_one(LedgerGrid).focus()

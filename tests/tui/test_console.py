@@ -304,3 +304,28 @@ def test_no_command_opens_the_console_on_the_chosen_ledger(ledger_path, monkeypa
     monkeypatch.setenv("PROPLEDGER_LEDGER", ledger_path)
     assert main([]) == 0
     assert opened == [os.path.abspath(ledger_path)] * 2
+
+
+def test_newest_and_selected_rows_are_on_screen_at_80x24(tmp_path):
+    """Issue 11 point 10: with a long watch list at 80x24 the ledger pane was held at a minimum height and its
+    last rows (the newest, and the selected one) were drawn under the footer."""
+    from ledger.services import scenario  # noqa: PLC0415
+    found = scenario.bundled()
+    if "geo-comsat" not in found:
+        pytest.skip("bundled scenario not found")
+    path = str(tmp_path / "demo.json")
+    scenario.build(found["geo-comsat"], path)
+
+    async def go():
+        app = make_app(path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            await pilot.pause(0.5)
+            grid = app.main.query_one(LedgerGrid)
+            keys = app.main.query_one("#keys")
+            shown = grid.region.height - 1  # less the header
+            assert app.main.window.size <= shown and grid.page_rows <= shown
+            assert grid.region.bottom <= keys.region.y  # nothing of the grid under the footer
+            assert grid.cursor < shown and app.main.window.cursor_seq == app.main.window.seqs()[-1]
+
+    run(go())

@@ -329,3 +329,19 @@ def test_newest_and_selected_rows_are_on_screen_at_80x24(tmp_path):
             assert grid.cursor < shown and app.main.window.cursor_seq == app.main.window.seqs()[-1]
 
     run(go())
+
+
+def test_narrow_ledger_shows_the_year_when_entries_span_years(ledger_path):
+    """Issue 11 point 10: at 80x24 the grid dropped the year even when entries spanned several years."""
+    led = Ledger(ledger_path)
+    led.file.append_many([make_record("use", 2.2e9, 2.2e9, "ops", "a later year", {"engine": "rcs", "duration": 1.0})])
+
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            grid = app.main.query_one(LedgerGrid)
+            assert "MM-DD UTC" not in grid.columns
+            assert any(str(c[2]).startswith("2039-") for _, c in grid.rows)  # 2.2e9 s is in 2039 (UTC)
+
+    run(go())

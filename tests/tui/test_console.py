@@ -340,6 +340,7 @@ def test_narrow_ledger_shows_the_year_when_entries_span_years(ledger_path):
         app = make_app(ledger_path)
         async with app.run_test(size=(80, 24)) as pilot:
             await ready(app, pilot)
+            await pilot.pause(0.3)
             grid = app.main.query_one(LedgerGrid)
             assert "MM-DD UTC" not in grid.columns
             assert any(str(c[2]).startswith("2039-") for _, c in grid.rows)  # 2.2e9 s is in 2039 (UTC)

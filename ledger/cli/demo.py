@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import os
+import shutil
 import tempfile
 
 from ..errors import InputError
@@ -13,7 +14,8 @@ DEFAULT = "geo-comsat"
 def register(sub) -> None:
     p = sub.add_parser("demo", help="build a fresh ledger from a bundled scenario and open it")
     p.add_argument("--scenario", default=DEFAULT, help=f"bundled scenario (default {DEFAULT}); 'list' lists them")
-    p.add_argument("--folder", help="where to put the demo ledger (default: a new temporary folder)")
+    p.add_argument("--folder", help="keep the demo ledger in this folder, e.g. --folder /tmp/mydemo "
+                                    "(default: a temporary folder removed on exit)")
     p.add_argument("--print", dest="print_only", action="store_true", help="print status and log instead of the console")
     p.set_defaults(func=cmd_demo)
 
@@ -30,10 +32,25 @@ def cmd_demo(args) -> int:
         raise InputError(f"--scenario: no bundled scenario '{args.scenario}' (have: {', '.join(found) or 'none'})")
     folder = args.folder or tempfile.mkdtemp(prefix="propledger-demo-")
     os.makedirs(folder, exist_ok=True)
+    try:
+        return _run_demo(args, found, folder)
+    finally:
+        if not args.folder:
+            shutil.rmtree(folder, ignore_errors=True)
+
+
+def _run_demo(args, found, folder: str) -> int:
+    """Build and show the demo; ``cmd_demo`` removes a temporary folder afterwards."""
+    from ..services import scenario  # noqa: PLC0415
+
     path = os.path.join(folder, f"{args.scenario}.ledger.json")
     scenario.build(found[args.scenario], path)
     args.ledger = path
-    print(plain(f"demo ledger: {path}  (use --ledger {path} with any command)"))
+    args.demo = True
+    if args.folder:
+        print(plain(f"demo ledger: {path}  (kept, as --folder asked; use --ledger {path} with any command)"))
+    else:
+        print(plain(f"demo ledger: {path}  (temporary: removed when the demo exits; --folder DIR keeps it)"))
     from .console import open_console  # noqa: PLC0415
     from .reading import cmd_log, cmd_status  # noqa: PLC0415
 

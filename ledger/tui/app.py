@@ -8,6 +8,7 @@ the panels are redrawn from the snapshot that write leaves behind.
 from __future__ import annotations
 
 import os
+import shutil
 import threading
 import time
 from typing import Any, Iterable
@@ -47,10 +48,12 @@ class LedgerConsole(App):
     CSS_PATH = "console.tcss"
     TITLE = "propledger"
 
-    def __init__(self, path: str) -> None:
+    def __init__(self, path: str, demo: bool = False) -> None:
         super().__init__()
         self.path = os.path.abspath(path)
         self.live = LiveLedger(self.path)
+        self.demo = demo                      # invented data: the masthead says DEMO DATA
+        self.demo_folder: str | None = None   # a temporary folder this console made, removed on exit
         self.snap: Snapshot | None = None
         self.ix: browse.LogIndex | None = None
         self.main: MainScreen | None = None
@@ -93,6 +96,16 @@ class LedgerConsole(App):
     def ledger_created(self) -> None:
         self.pop_screen()
         self.start()
+
+    def demo_created(self, path: str, folder: str) -> None:
+        """A bundled scenario was built in a temporary folder (never at the real ledger's path): open it as
+        a demo, and remove the folder when the console exits."""
+        self.path, self.live, self.demo, self.demo_folder = path, LiveLedger(path), True, folder
+        self.ledger_created()
+
+    def on_unmount(self) -> None:
+        if self.demo_folder:
+            shutil.rmtree(self.demo_folder, ignore_errors=True)
 
     def _verify_after_paint(self) -> None:
         """The first paint skipped hashing (big ledgers): verify the chain now and repaint."""
@@ -234,20 +247,21 @@ class LedgerConsole(App):
             self.open_form(result[0], result[1])
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
-        yield from super().get_system_commands(screen)
+        # Textual's own screenshot command saves an SVG to a folder the user did not choose: left out
+        yield from (c for c in super().get_system_commands(screen) if "screenshot" not in c.title.lower())
         if self.main is None:
             return
         for a in actions.ACTIONS:
             yield SystemCommand(f"{a.title}  ({a.key_display or a.key})", a.help, getattr(self.main, f"action_{a.name}"))
 
 
-def make_app(path: str) -> LedgerConsole:
+def make_app(path: str, demo: bool = False) -> LedgerConsole:
     """The console on ``path`` (tests build it here and drive it with ``run_test``)."""
-    return LedgerConsole(path)
+    return LedgerConsole(path, demo)
 
 
 def run_console(args) -> int:
     path = resolve_path(getattr(args, "ledger", None))
-    app = make_app(path)
+    app = make_app(path, bool(getattr(args, "demo", False)))
     app.run()
     return int(app.return_code or 0)

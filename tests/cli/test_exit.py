@@ -62,3 +62,15 @@ def test_tables_written_to_a_pipe_are_not_cut_to_80_columns(ledger):
                           env=env, cwd=ROOT)
     assert proc.returncode == 0 and note in proc.stdout and "R. Osei" in proc.stdout
     assert "…" not in proc.stdout
+
+
+def test_demo_removes_its_temporary_folder_and_keeps_a_given_one(tmp_path):
+    # issue 11 point 11: 'demo' without --folder says its folder is temporary and removes it on exit
+    proc = run("demo", "--print")
+    assert proc.returncode == 0, proc.stderr
+    line = next(ln for ln in proc.stdout.splitlines() if ln.startswith("demo ledger:"))
+    path = line.split()[2]
+    assert "removed when the demo exits" in line and not os.path.exists(os.path.dirname(path))
+    kept = run("demo", "--folder", str(tmp_path), "--print")
+    assert kept.returncode == 0 and "kept" in kept.stdout
+    assert any(name.endswith(".ledger.json") for name in os.listdir(tmp_path))

@@ -175,6 +175,44 @@ def test_every_action_has_a_key_bar_entry_and_a_palette_command(ledger_path):
     run(go())
 
 
+def test_footer_at_80x24_has_whole_words_and_palette_has_no_screenshot(ledger_path):
+    """Issue 11 point 10: every footer label shown at 80x24 is a whole word, every key is shown on at most
+    two lines, and the palette offers no screenshot command (it wrote files to an unchosen folder)."""
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            bar = app.main.query_one("#keys")
+            shown = str(bar.render()).split()
+            for bad in ("Wdrw", "Hand", "Rebase", "Corr", "Alrt", "Cmds"):
+                assert bad not in shown, bad
+            assert bar.size.height <= 2
+            for a in actions.ACTIONS:
+                assert a.label in shown or a.label in str(bar.render()), a.label
+            titles = [c.title.lower() for c in app.get_system_commands(app.screen)]
+            assert not any("screenshot" in t for t in titles)
+
+    run(go())
+
+
+def test_escape_clears_a_find_after_enter_moved_focus_to_the_ledger(ledger_path):
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            total = len(app.main.window.sel)
+            await pilot.press("slash")
+            await type_text(pilot, "rcs")
+            await pilot.press("enter")
+            await pilot.pause(0.3)
+            assert len(app.main.window.sel) < total
+            await pilot.press("escape")  # the ledger has the focus now
+            await pilot.pause(0.3)
+            assert len(app.main.window.sel) == total and app.main.find_text == ""
+
+    run(go())
+
+
 def test_first_run_creates_the_ledger_from_a_craft_file(tmp_path):
     path = str(tmp_path / "sub" / "new.json")
 
@@ -197,10 +235,13 @@ def test_first_run_creates_the_ledger_from_a_craft_file(tmp_path):
     assert count(path) == 0
 
 
-def test_first_run_creates_the_ledger_from_a_bundled_scenario(tmp_path, monkeypatch):
+def test_first_run_opens_a_bundled_scenario_as_a_demo_and_never_writes_the_real_ledger(tmp_path, monkeypatch):
+    """Issue 11 point 11: a scenario is invented data; it opens from a temporary folder, marked DEMO DATA,
+    the real ledger path stays empty, and the temporary folder is gone when the console exits."""
     from ledger.services import scenario  # noqa: PLC0415
     monkeypatch.setattr(scenario, "bundled", lambda: {"testbed": CRAFT})
     path = str(tmp_path / "from-scenario.json")
+    seen = {}
 
     async def go():
         app = make_app(path)
@@ -210,9 +251,23 @@ def test_first_run_creates_the_ledger_from_a_bundled_scenario(tmp_path, monkeypa
             await pilot.press("down", "enter")
             await ready(app, pilot)
             assert isinstance(app.screen, MainScreen) and app.snap.craft.name == "Testbed-7"
+            assert "DEMO DATA" in str(app.main.query_one("#masthead", Static).render())
+            seen["folder"], seen["path"] = app.demo_folder, app.path
+            assert os.path.exists(app.path) and os.path.abspath(app.path) != os.path.abspath(path)
 
     run(go())
-    assert os.path.exists(path)
+    assert not os.path.exists(path)
+    assert not os.path.exists(seen["folder"])
+
+
+def test_a_real_ledger_is_not_marked_as_demo_data(ledger_path):
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(100, 30)) as pilot:
+            await ready(app, pilot)
+            assert "DEMO DATA" not in str(app.main.query_one("#masthead", Static).render())
+
+    run(go())
 
 
 def test_mouse_picks_a_row_and_opens_it_and_columns_scroll(ledger_path):
@@ -249,3 +304,45 @@ def test_no_command_opens_the_console_on_the_chosen_ledger(ledger_path, monkeypa
     monkeypatch.setenv("PROPLEDGER_LEDGER", ledger_path)
     assert main([]) == 0
     assert opened == [os.path.abspath(ledger_path)] * 2
+
+
+def test_newest_and_selected_rows_are_on_screen_at_80x24(tmp_path):
+    """Issue 11 point 10: with a long watch list at 80x24 the ledger pane was held at a minimum height and its
+    last rows (the newest, and the selected one) were drawn under the footer."""
+    from ledger.services import scenario  # noqa: PLC0415
+    found = scenario.bundled()
+    if "geo-comsat" not in found:
+        pytest.skip("bundled scenario not found")
+    path = str(tmp_path / "demo.json")
+    scenario.build(found["geo-comsat"], path)
+
+    async def go():
+        app = make_app(path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            await pilot.pause(0.5)
+            grid = app.main.query_one(LedgerGrid)
+            keys = app.main.query_one("#keys")
+            shown = grid.region.height - 1  # less the header
+            assert app.main.window.size <= shown and grid.page_rows <= shown
+            assert grid.region.bottom <= keys.region.y  # nothing of the grid under the footer
+            assert grid.cursor < shown and app.main.window.cursor_seq == app.main.window.seqs()[-1]
+
+    run(go())
+
+
+def test_narrow_ledger_shows_the_year_when_entries_span_years(ledger_path):
+    """Issue 11 point 10: at 80x24 the grid dropped the year even when entries spanned several years."""
+    led = Ledger(ledger_path)
+    led.file.append_many([make_record("use", 2.2e9, 2.2e9, "ops", "a later year", {"engine": "rcs", "duration": 1.0})])
+
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await ready(app, pilot)
+            await pilot.pause(0.3)
+            grid = app.main.query_one(LedgerGrid)
+            assert "MM-DD UTC" not in grid.columns
+            assert any(str(c[2]).startswith("2039-") for _, c in grid.rows)  # 2.2e9 s is in 2039 (UTC)
+
+    run(go())

@@ -111,3 +111,31 @@ def test_check_gives_feasible_marginal_and_infeasible_with_the_probability(ledge
                 assert label in text and f"p {ref['probability']:.4f}" in text
 
     run(go())
+
+
+def test_check_verdict_and_figures_clear_when_the_input_empties_or_turns_invalid(ledger_path):
+    """Issue 11 point 1: after a verdict for 5 m/s, emptying the delta-v or typing an invalid one leaves no
+    verdict, probability or figure on screen (a stale verdict beside an error misleads at go/no-go)."""
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(100, 40)) as pilot:
+            await ready(app, pilot)
+            await pilot.press("k")
+            await pilot.pause(0.1)
+            assert isinstance(app.screen, CheckDialog)
+            res, text = await _check(app, pilot, "5 m/s")
+            assert "FEASIBLE" in text and "p " in text
+            box = app.screen.query_one("#c-dv", Input)
+            for bad in ("", "5 parsecs", "-"):
+                box.value = bad
+                await pilot.pause(0.05)
+                conf = str(app.screen.query_one("#conf-result", Static).render())
+                body = str(app.screen.query_one("#check-result", Static).render())
+                assert app.screen.confidence is None and app.screen.result is None, bad
+                assert "FEASIBLE" not in conf and "confidence" not in conf, (bad, conf)
+                assert "FEASIBLE" not in body and "kg" not in body and "m/s" not in body, (bad, body)
+            await pilot.pause(lows_wait := 0.6)  # no late verdict arrives for the emptied field either
+            assert app.screen.confidence is None and "FEASIBLE" not in str(
+                app.screen.query_one("#conf-result", Static).render()), lows_wait
+
+    run(go())

@@ -133,6 +133,7 @@ class CheckDialog(WorkMixin, ModalScreen):
                 if msg:
                     self.result = None
                     out.update("Give a delta-v, or pick a pending plan.")
+                    self.confidence_for(None)  # no verdict may outlive the input it was for
                     return
                 self.result = browse.check(snap, self.query_one("#c-engine", Select).value, dv[1])
         except LedgerError as exc:
@@ -180,6 +181,8 @@ class CheckDialog(WorkMixin, ModalScreen):
             self.query_one("#conf-result", Static).update(confidence_text(res))
 
     def _confidence_failed(self, message: str) -> None:
+        if self.result is None:
+            return
         self.query_one("#conf-result", Static).update(Text(f"✗ no verdict at {CONFIDENCE:.0%}: {message}",
                                                            style="bold red"))
 

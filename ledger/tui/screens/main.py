@@ -5,6 +5,8 @@ The screen is handed each new snapshot by the app and keeps the user's place in 
 """
 from __future__ import annotations
 
+from datetime import datetime, timezone
+
 from rich.text import Text
 from textual.app import ComposeResult
 from textual.containers import Container, Horizontal, Vertical
@@ -23,7 +25,7 @@ from ..widgets.window import Window, cells, columns
 
 KIND_CYCLE = (None, "burn", "plan", "mass", "use", "withdraw", "correct", "gauge", "approve", "handover")
 KEYS = [(a.key_display or a.key, a.label, f"screen.{a.name}", a.short) for a in actions.ACTIONS] + [
-    ("^p", "Commands", "app.command_palette", "Cmds")]
+    ("^p", "Commands", "app.command_palette", "Menu")]
 SHORT_CAUTION = ("⚠ Decision support only: verify against the mission's flight-dynamics system of record, "
                  "its mission rules and the responsible engineers.")
 
@@ -31,6 +33,14 @@ SHORT_CAUTION = ("⚠ Decision support only: verify against the mission's flight
 NARROW_GRID = 120
 """Below this many columns the ledger grid drops the year and shortens 'engine', so that the status and
 'by' columns still fit beside the per-tank columns (a 160-column terminal gives the grid about 107)."""
+
+def one_year(ix) -> bool:
+    """True when every entry falls in one calendar year (UTC): only then may a narrow grid drop the year."""
+    if ix is None or not ix.keys:
+        return True
+    first, last = (datetime.fromtimestamp(ix.keys[i][0], tz=timezone.utc).year for i in (0, -1))
+    return first == last
+
 
 class MainScreen(Screen):
     HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (120, "-wide")]
@@ -122,6 +132,8 @@ class MainScreen(Screen):
         width = self.size.width or 80
         mast = Text(no_wrap=True)
         mast.append(" ◆ propledger ", style="bold reverse")
+        if getattr(self.app, "demo", False):
+            mast.append(" DEMO DATA ", style="bold black on yellow")
         mast.append(f" {craft} ", style="bold")
         for part in parts:
             if mast.cell_len + len(part) + 3 > width:
@@ -145,7 +157,7 @@ class MainScreen(Screen):
     def draw_rows(self) -> None:
         table = self.query_one(LedgerGrid)
         tank_ids = tuple(self.snap.craft.tank_ids)
-        narrow = (table.size.width or self.size.width) < NARROW_GRID
+        narrow = (table.size.width or self.size.width) < NARROW_GRID and one_year(self.ix)
         keep = self.window.cursor_seq
         seqs = self.window.seqs()
         rows = browse.rows(self.snap, self.ix, seqs)
@@ -213,9 +225,10 @@ class MainScreen(Screen):
             self.update_pager()
 
     def key_escape(self) -> None:
+        """Esc clears a find, whether the find box or the ledger has the focus."""
         box = self.query_one("#find", Input)
-        if box.has_focus:
-            if box.value:
+        if box.has_focus or self.find_text or box.value:
+            if box.value or self.find_text:
                 box.value = ""
                 self._apply_find()
             self.query_one(LedgerGrid).focus()

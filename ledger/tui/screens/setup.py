@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import os
+import tempfile
 
 from textual.app import ComposeResult
 from textual.binding import Binding
@@ -28,7 +29,8 @@ class SetupScreen(Screen):
         yield Static(" ◆ propledger  no ledger yet", id="masthead")
         with Vertical(id="setup-body"):
             yield Static(f"There is no ledger at\n  {self.path}\nCreate it from a craft file (YAML), or from a "
-                         "bundled demo scenario.", id="setup-intro")
+                         "bundled demo scenario (opened as DEMO DATA from a temporary folder, removed on exit; "
+                         "nothing is written here).", id="setup-intro")
             with Horizontal(classes="field-row"):
                 yield Label("craft file", classes="field-label")
                 yield Input(placeholder="path/to/craft.yaml, then Enter", id="craft-path", compact=True)
@@ -79,13 +81,14 @@ class SetupScreen(Screen):
         found = scenario.bundled()
         if name not in found:
             return
+        folder = tempfile.mkdtemp(prefix="propledger-demo-")  # never the real ledger's path
+        path = os.path.join(folder, f"{name}.ledger.json")
         try:
-            self._prepare()
-            scenario.build(found[name], self.path)
+            scenario.build(found[name], path)
         except (LedgerError, OSError) as exc:
             self._fail(exc)
             return
-        self.app.ledger_created()
+        self.app.demo_created(path, folder)
 
     def action_quit(self) -> None:
         self.app.exit()

@@ -22,7 +22,7 @@ class _Parser(argparse.ArgumentParser):
     """argparse that reports a usage error in one line (and exit status 2)."""
 
     def error(self, message: str):  # noqa: D401
-        raise LedgerError(f"{self.prog}: {message} (see '{self.prog} --help')")
+        raise LedgerError(f"{message} (see '{self.prog} --help')")  # main adds the one 'propledger:' prefix
 
 
 def _one_line(exc: BaseException) -> str:
@@ -34,11 +34,29 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="propledger", description=(
         "Propellant and delta-v ledger for spacecraft operations. Decision support only: verify against the "
         "mission's flight-dynamics system of record, its mission rules and the responsible engineers."))
-    parser.add_argument("--ledger", help="ledger file (else $PROPLEDGER_LEDGER, else the user data folder)")
+    parser.add_argument("--ledger", help=LEDGER_HELP)
     sub = parser.add_subparsers(dest="command", parser_class=_Parser, metavar="COMMAND")
     for name in COMMAND_MODULES:
         importlib.import_module(name).register(sub)
+    for child in sub.choices.values():  # '--ledger X' is accepted after the command too
+        if not any("--ledger" in a.option_strings for a in child._actions):
+            child.add_argument("--ledger", default=argparse.SUPPRESS, help=LEDGER_HELP)
     return parser
+
+
+LEDGER_HELP = ("ledger file, before or after the command, e.g. '--ledger sat1.ledger.json' "
+               "(else $PROPLEDGER_LEDGER, else the user data folder)")
+
+
+def _quiet_stdout() -> None:
+    """Point stdout at /dev/null once its reader has gone (like '| head -1'), so the last flush at exit
+    cannot fail again and turn a finished command into exit 1."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError):
+        pass
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -56,7 +74,8 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("propledger: interrupted; nothing further written", file=sys.stderr)
         return 130
-    except BrokenPipeError:
+    except BrokenPipeError:  # the reader stopped early: what it wanted was written; not an error
+        _quiet_stdout()
         return 0
     except Exception as exc:  # noqa: BLE001 - a user never sees a traceback; developers can ask for one
         if os.environ.get("PROPLEDGER_DEBUG"):
@@ -68,6 +87,10 @@ def main(argv: list[str] | None = None) -> int:
 
 def run() -> None:
     code = main()
+    try:
+        sys.stdout.flush()
+    except (BrokenPipeError, OSError):
+        _quiet_stdout()
     if threading.active_count() == 1:
         _leave(code)
     sys.exit(code)
@@ -83,5 +106,5 @@ def _leave(code: int) -> None:
         sys.stdout.flush()
         sys.stderr.flush()
     except (BrokenPipeError, OSError):
-        pass
+        _quiet_stdout()
     os._exit(code)

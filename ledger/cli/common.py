@@ -48,9 +48,16 @@ def console(stderr: bool = False):
     from rich.console import Console  # noqa: PLC0415
 
     out = Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
+    out.on_broken_pipe = _broken_pipe  # rich would exit 1; cli.main turns this into exit 0
     if not out.is_terminal and "COLUMNS" not in os.environ:
         out.width = FILE_WIDTH
     return out
+
+
+def _broken_pipe() -> None:
+    """The reader of stdout has gone (e.g. '| head -3'): stop writing and let cli.main end with the
+    command's own status instead of rich's SystemExit(1)."""
+    raise BrokenPipeError
 
 
 def plain(text: Any) -> str:

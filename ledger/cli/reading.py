@@ -160,10 +160,43 @@ def cmd_log(args) -> int:
     if args.last:
         rows = rows[-args.last:]
     if args.json:
-        dump_json(rows)
+        from ..store.ledgerfile import ordered  # noqa: PLC0415
+
+        stored = {r["seq"]: r for r in ordered(open_ledger(args).file.document())}
+        dump_json([log_json(r, stored.get(r["id"], {})) for r in rows])
         return 0
     print_log(snap.craft, rows)
     return 0
+
+
+SI_KEYS = {"dv": "dv_m_s", "duration": "duration_s", "propellant": "propellant_kg", "delta": "delta_kg",
+           "pressure": "pressure_pa", "temperature": "temperature_k", "volume": "volume_m3"}
+"""Stored SI fields renamed so each key names its unit (the stored record keeps the short names)."""
+
+
+def _si_data(data: dict) -> dict:
+    """An entry's data with unit-named keys; a correction's changes as an object, its time in ISO 8601."""
+    from ..services.timefmt import iso  # noqa: PLC0415
+
+    out = {}
+    for k, v in data.items():
+        if k == "changes" and isinstance(v, dict):
+            v = {SI_KEYS.get(ck, ck): (iso(cv) if ck == "at" and isinstance(cv, (int, float)) else cv)
+                 for ck, cv in v.items()}
+        out[SI_KEYS.get(k, k) if isinstance(v, (int, float)) and not isinstance(v, bool) else k] = v
+    return out
+
+
+def log_json(row: dict, stored: dict) -> dict:
+    """One log row for scripts: the replay figures of the row, everything stored (data in SI with the unit
+    in each key, hash, previous hash, host, program), and the human amount text as ``amount``."""
+    out = dict(row)
+    out["data"] = _si_data(dict(stored.get("data") or {}))
+    if isinstance(out["data"].get("changes"), dict):
+        out["changes"] = out["data"]["changes"]
+    for k in ("hash", "prev", "host", "program"):
+        out[k] = stored.get(k)
+    return out
 
 
 def kind_label(r: dict) -> str:

@@ -28,10 +28,20 @@ def tank_options(snap) -> list[tuple[str, str]]:
     for t in snap.craft.tanks:
         try:
             how = gauging.method_for(t)
-        except LedgerError:
-            how = "cannot be gauged: no volume/pressurant"
+        except LedgerError as exc:
+            how = _not_gaugeable(t, str(exc))
         out.append((f"{t.id}  {t.fluid}, {how}", t.id))
     return out
+
+
+def _not_gaugeable(tank, problem: str) -> str:
+    """Names exactly what the craft file lacks: a gas-stored tank needs only its volume, a blowdown
+    tank its volume and its pressurant loading."""
+    needs = (("volume", tank.volume_m3),) + (() if "gas-stored" in problem else (("pressurant", tank.pressurant),))
+    missing = [name for name, value in needs if value is None]
+    if missing:
+        return f"cannot be gauged: the craft file gives no {' and no '.join(missing)}"
+    return f"cannot be gauged: {problem}"
 
 
 PREVIEW_FOOT = "preview: nothing recorded yet · ctrl+s records this reading"

@@ -3,7 +3,8 @@
 Why outside core: CoolProp takes over a second to import, so it is imported inside the
 functions that need it and never when this module is imported (a status command that never
 gauges must not pay for it). Why CoolProp at all: an ideal gas is 7-15 % off for helium
-bottles at 150-310 bar and useless for xenon near its critical point (FIELD.md section 4).
+bottles at 150-310 bar and useless for xenon near its critical point (measured with CoolProp
+8.0.0; docs/sources.md §6).
 """
 
 from __future__ import annotations

@@ -1,9 +1,9 @@
 """Shared fixtures: a ledger of a GEO-like craft with a controllable clock (handover, forecast, reports).
 
-The craft is a GEO-like bipropellant craft built from FIELD.md values: MMH/MON-3 at mixture ratio 1.65
-(section 2, from memory), a 440 N apogee engine at 318 s and 10 N thrusters at 290 s (section 1, from
-memory), a 9.617 m/s re-orbit reserve (section 5, IADC guideline, computed) and 45.6 m/s/yr of
-north-south station keeping on the thrusters (section 5). Loads and dry mass are round numbers.
+The craft is a GEO-like bipropellant craft built from values in docs/sources.md: MMH/MON-3 at mixture ratio
+1.65 (§3, from memory), a 440 N apogee engine at 318 s and 10 N thrusters at 290 s (§2, from memory), a
+9.617 m/s re-orbit reserve (§7, IADC guideline, computed) and 45.6 m/s/yr of north-south station keeping
+on the thrusters (§7, Soop's drift rate from memory, the delta-v computed). Loads and dry mass are round numbers.
 """
 from __future__ import annotations
 

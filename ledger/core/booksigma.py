@@ -5,7 +5,7 @@ A simple model, stated so an engineer can check it (a fuller Monte Carlo may rep
     sigma_t^2 = sigma_start_t^2 + sum over engines e of (r_e * D_et)^2
 
 - sigma_start_t: the tank's load sigma (craft file ``load_sigma``, else 0.1 % of the load: weighing,
-  FIELD.md section 7, from memory), or the sigma adopted at the tank's latest re-baseline, which resets
+  docs/sources.md §4, from memory), or the sigma adopted at the tank's latest re-baseline, which resets
   the account.
 - D_et: propellant engine e drew from tank t since then (replay).
 - r_e: the engine's flow-model error as a fraction, its ``isp_sigma / isp`` from the craft file, else
@@ -14,7 +14,7 @@ A simple model, stated so an engineer can check it (a fuller Monte Carlo may rep
 
 Why per engine and not per burn: the flow-model error is mostly a bias of the engine's Isp and thrust
 curves, shared by all its burns, so it grows with what the engine drew (the "integral of model bias",
-FIELD.md section 3). Independent per-burn errors would shrink as 1/sqrt(N) over thousands of pulses and
+docs/sources.md §4). Independent per-burn errors would shrink as 1/sqrt(N) over thousands of pulses and
 claim a precision nobody has. Engines are taken as independent of each other and of the load.
 Not modelled: dry-mass error in delta-v burns, mixture-ratio drift between tanks, leaks.
 """

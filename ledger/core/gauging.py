@@ -37,7 +37,7 @@ class GaugeSigmas:
     at about +-0.5 % of full scale, taken here as 1 sigma of a 3 MPa range (15 kPa); the same
     transducer reads the loading pressure at pressurisation. Tank-wall temperature sensors
     +-0.5 K, including the wall-to-bulk difference. Tank volume from water-fill calibration
-    0.1 % (stretch not modelled). Loaded mass 0.1 % by weighing (FIELD.md section 7, from
+    0.1 % (stretch not modelled). Loaded mass 0.1 % by weighing (docs/sources.md §4, from
     memory). Liquid density 0.2 % and vapour pressure 3 %: pass the fluid's own values from
     ledger.core.liquids. Gas density 0.2 % (reference equations of state for He, N2, Ar,
     Kr, Xe, from memory); used only for gas-stored tanks, because in a blowdown tank a common
@@ -162,7 +162,7 @@ def blowdown_estimate(
 ) -> BlowdownGauge:
     """Propellant left in a blowdown tank from its loading record and a P, T reading.
 
-    FIELD.md section 3: V_u0 = V - m0/rho_l(T0); m_gas = rho_g(P0, T0) * V_u0;
+    docs/sources.md §4: V_u0 = V - m0/rho_l(T0); m_gas = rho_g(P0, T0) * V_u0;
     P_gas = P - p_vap(T); V_u = m_gas / rho_g(P_gas, T); m = rho_l(T) * (V - V_u).
     load_gas_pressure_pa is the pressurant's own pressure at loading (subtract p_vap(T0) from
     a tank reading first). temperature_limits_k, if given, clips sampled temperatures to the

@@ -35,7 +35,7 @@ class _Correlation:
 
 # Hydrazine.
 #   Density: rho = 1025.7 - 0.86*t[degC], the straight line through Schmidt, "Hydrazine and
-#   Its Derivatives" (1008.5 kg/m3 at 20 degC, 1004.2 at 25 degC; via FIELD.md section 4),
+#   Its Derivatives" (1008.5 kg/m3 at 20 degC, 1004.2 at 25 degC; via a secondary summary, docs/sources.md §5),
 #   stated for 2-50 degC. Published values spread about +-2 kg/m3 (AFRPL-TR-69-149: 1003.7 at
 #   25 degC), hence sigma 0.2 %.
 #   Vapour pressure: Perry's Chemical Engineers' Handbook, 8th ed., Table 2-8 (DIPPR eq. 101):
@@ -50,8 +50,8 @@ _HYDRAZINE = _Correlation(
 
 # MMH (monomethylhydrazine).
 #   Density: anchored at AFRPL-TR-69-149, 870.2 kg/m3 at 298.0 K (via the RocketProps
-#   documentation's reference-point table), slope -0.94 kg/m3/K from published tables (FIELD.md
-#   section 4). REFPROP gives 875.6 at 20 degC (0.1 % from this line), Aerojet 879.8 (0.6 %),
+#   documentation's reference-point table), slope -0.94 kg/m3/K from published tables (docs/sources.md
+#   §5). REFPROP gives 875.6 at 20 degC (0.1 % from this line), Aerojet 879.8 (0.6 %),
 #   hence sigma 0.3 %.
 #   Vapour pressure: Wagner equation, 2.5-5 form (Poling, Prausnitz & O'Connell, "Properties of
 #   Gases and Liquids", 5th ed.), constants fitted to AFRPL-TR-69-149 / REFPROP / Aerojet data
@@ -68,7 +68,7 @@ _MMH = _Correlation(
 
 # NTO (N2O4).
 #   Density: anchored at AFRPL-TR-76-76 (Wright 1977), 1433 kg/m3 at 25 degC (via RocketProps
-#   documentation), slope -2.3 kg/m3/K (FIELD.md section 4). Published 20 degC values
+#   documentation), slope -2.3 kg/m3/K (docs/sources.md §5). Published 20 degC values
 #   1441.4-1444.5 lie within 0.2 %; the straight line drifts about 0.3 % at the range ends.
 #   Vapour pressure: Wagner 2.5-5 form, RocketProps constants a, b, c, d = -8.437950623751371,
 #   -3.7198359775967993, 3.2683044393949223, 12.45086649764585; Tc = 776.47 degR,

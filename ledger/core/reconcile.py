@@ -2,7 +2,7 @@
 
 Why separate: book-keeping error grows with every burn (integral of flow-model bias) while a
 PVT gauge has its own, different error; comparing them in units of their combined sigma is
-how a leak, a drifting sensor or a bad flow model shows up (FIELD.md sections 3 and 7).
+how a leak, a drifting sensor or a bad flow model shows up (docs/sources.md §4).
 """
 
 from __future__ import annotations

@@ -1,7 +1,7 @@
 """One-sigma uncertainties: the defaults used when a craft file or an entry gives none, in one place.
 
 Every default is relative to the value it belongs to and names where it comes from (tags as in
-shared/FIELD.md: [read], [memory], [practice]). A sigma written in the craft file or given with
+docs/sources.md: [read], [memory], [practice]). A sigma written in the craft file or given with
 ``--sigma`` always wins; an explicit 0 means "known exactly" and switches that term off.
 """
 from __future__ import annotations
@@ -23,21 +23,23 @@ class Default:
 
 
 CRAFT_DEFAULTS: dict[str, Default] = {
-    "dry_mass": Default(0.001, "craft weighed before fuelling, ~0.1 % (FIELD.md §7 'loaded mass ~0.1 % by "
-                               "weighing') [memory]"),
-    "load": Default(0.001, "propellant load by weighing ~0.1 % (FIELD.md §7) [memory]; beginning-of-life "
-                           "book-keeping 0.1 % (Shaik, Relangi & Thangavel 2023, FIELD.md §3) [read]"),
-    "isp": Default(0.01, "Isp and flow-model bias 1-3 % (FIELD.md §7) [memory]; low end taken"),
-    "thrust": Default(0.02, "thrust and flow-model bias 1-3 % (FIELD.md §7) [memory]; middle taken"),
+    "dry_mass": Default(0.001, "craft weighed before fuelling, ~0.1 % (docs/sources.md §4 'loaded mass "
+                               "~0.1 % by weighing') [memory]"),
+    "load": Default(0.001, "propellant load by weighing ~0.1 % (docs/sources.md §4) [memory]; beginning-of-life "
+                           "book-keeping 0.1 % (Shaik, Relangi & Thangavel, Aerospace 10(6):567, 2023) [read]"),
+    "isp": Default(0.01, "Isp and flow-model bias 1-3 % (docs/sources.md §4) [memory]; low end taken"),
+    "thrust": Default(0.02, "thrust and flow-model bias 1-3 % (docs/sources.md §4) [memory]; middle taken"),
 }
 
 ENTRY_DEFAULTS: dict[str, Default] = {
     "dv": Default(0.01, "achieved delta-v from orbit determination; 1 % of the burn is a project choice [practice]"),
     "duration": Default(0.01, "firing-to-firing repeatability of the flow on top of the engine's own "
-                              "thrust/Isp bias (worse in pulse mode, FIELD.md §7); 1 % is a project choice [practice]"),
-    "propellant": Default(0.01, "propellant quoted from gauging, PVT 1.0 % at beginning of life (Shaik et al. "
-                                "2023, FIELD.md §3) [read]"),
-    "delta": Default(0.001, "a separated or added item is weighed like the craft, ~0.1 % (FIELD.md §7) [memory]"),
+                              "thrust/Isp bias (worse in pulse mode, docs/sources.md §4); 1 % is a project choice "
+                              "[practice]"),
+    "propellant": Default(0.01, "propellant quoted from gauging, PVT 1.0 % at beginning of life (Shaik et al., "
+                                "Aerospace 10(6):567, 2023) [read]"),
+    "delta": Default(0.001, "a separated or added item is weighed like the craft, ~0.1 % (docs/sources.md §4) "
+                            "[memory]"),
 }
 
 

@@ -20,7 +20,7 @@ from .timefmt import iso, now as clock, parse_time
 
 RATIO_TOLERANCE = 0.05
 """Achieved/planned outside 1 ± 5% is flagged: the margin usually held on accurately computed manoeuvres
-(ESA SRE-PA/2011.097, via FIELD.md section 5)."""
+(ESA SRE-PA/2011.097, via a secondary summary; docs/sources.md §3)."""
 SINCE_LAST = "last"
 
 

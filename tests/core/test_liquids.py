@@ -21,7 +21,7 @@ from ledger.core.liquids import (
 
 # (fluid, T [K], published density [kg/m3], source). Tolerance: the correlation's own 1 sigma.
 PUBLISHED_DENSITY = [
-    ("hydrazine", 298.15, 1003.7, "AFRPL-TR-69-149 (FIELD.md section 4, read)"),
+    ("hydrazine", 298.15, 1003.7, "AFRPL-TR-69-149 (read; docs/sources.md §5)"),
     ("hydrazine", 293.15, 1007.63, "NIST REFPROP, via RocketProps"),
     ("hydrazine", 293.15, 1010.07, "Aerojet propellant properties, via RocketProps"),
     ("MMH", 293.15, 875.575, "NIST REFPROP, via RocketProps"),
@@ -44,8 +44,8 @@ def test_mmh_aerojet_density_within_two_sigma():
     assert liquid_density("MMH", 293.15) == pytest.approx(879.839, rel=2 * density_sigma_rel("MMH"))
 
 
-def test_density_ranges_quoted_in_field_notes():
-    # FIELD.md section 4 [read]: MMH 875-880 kg/m3 and NTO 1441-1444 kg/m3 at 20 degC.
+def test_density_ranges_published_at_20c():
+    # Published property tables, read (docs/sources.md §5): MMH 875-880 kg/m3 and NTO 1441-1444 kg/m3 at 20 degC.
     mmh, nto = liquid_density("MMH", 293.15), liquid_density("NTO", 293.15)
     assert 875.0 * (1 - density_sigma_rel("MMH")) <= mmh <= 880.0
     assert 1441.0 <= nto <= 1444.0 * (1 + density_sigma_rel("NTO"))
@@ -75,8 +75,8 @@ def test_hydrazine_vapour_pressure_against_nist_antoine():
         assert vapour_pressure("N2H4", t) == pytest.approx(antoine, rel=0.01)
 
 
-def test_field_note_vapour_pressures_at_20c():
-    # FIELD.md section 3 [memory]: N2H4 ~1.4 kPa, MMH ~5 kPa at 20 degC, NTO ~1 bar.
+def test_recalled_vapour_pressures_at_20c():
+    # From memory (docs/sources.md §4): N2H4 ~1.4 kPa, MMH ~5 kPa at 20 degC, NTO ~1 bar.
     assert vapour_pressure("hydrazine", 293.15) == pytest.approx(1.4e3, rel=0.05)
     assert vapour_pressure("MMH", 293.15) == pytest.approx(5.0e3, rel=0.05)
     assert vapour_pressure("NTO", 293.15) == pytest.approx(1.0e5, rel=0.05)

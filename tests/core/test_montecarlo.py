@@ -124,7 +124,7 @@ def test_first_order_propagation_single_use_then_burn():
     # Ledger: a firing of t seconds (propellant q = F t / (Isp g0)), then a burn of dv v. One tank, no residual.
     #   m0 = D + L, m1 = m0 - q, E = exp(-v / (Isp g0)), m2 = m1 E
     #   remaining R = L - q - m1 (1 - E);  dv available A = Isp g0 ln(m2 / (m2 - R)) = Isp g0 ln(m2 / D)
-    # Partial derivatives (rocket equation, Sutton & Biblarz ch. 2-4 form; FIELD.md §1):
+    # Partial derivatives (rocket equation, Sutton & Biblarz, Rocket Propulsion Elements, 9th ed., ch. 2-4 form):
     #   dq/dF = t/(Isp g0), dq/dt = F/(Isp g0), dq/dIsp = -q/Isp, dE/dv = -E/(Isp g0), dE/dIsp = E v/(Isp^2 g0)
     #   dR/dL = E, dR/dD = -(1 - E), dR/dx = -E dq/dx (x = F, t, Isp via q), dR/dIsp += m1 dE/dIsp, dR/dv = m1 dE/dv
     #   dm2/dx = (dm0/dx - dq/dx) E + m1 dE/dx;  dA/dx = g0 ln(m2/D) dIsp/dx + Isp g0 (dm2/dx / m2 - dD/dx / D)

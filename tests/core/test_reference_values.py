@@ -31,7 +31,7 @@ def test_rocket_equation_against_curtis_example_6_1():
 
 
 def test_published_propellant_ledger_apollo_lm_rcs():
-    # Apollo 11 Flight Plan (NASA MSC 1969), Table 5-6, LM RCS (read, quoted in shared FIELD.md):
+    # Apollo 11 Flight Plan (NASA MSC 1969), Table 5-6, LM RCS (read; docs/sources.md §3):
     # loaded 633.0 lb; trapped 40.6, gauging and loading 39.5, mixture-ratio uncertainty 17.0 -> usable 535.9;
     # nominal use 252.7 -> remaining usable 283.2 lb. All unusable allowances go into the residual.
     lb = 0.45359237  # international avoirdupois pound, exact (1959 agreement)
@@ -47,14 +47,14 @@ def test_published_propellant_ledger_apollo_lm_rcs():
 @pytest.mark.parametrize("cant, factor", [(5.0, 0.99619), (10.0, 0.98481), (20.0, 0.93969)])
 def test_cosine_loss_on_effective_exhaust_velocity(cant, factor):
     # Common practice: canted thrusters deliver F cos(theta) along the burn at unchanged mass flow, so the
-    # effective Isp is Isp cos(theta) (factors as tabulated in shared FIELD.md section 1).
+    # effective Isp is Isp cos(theta) (cos 5, 10, 20 deg computed by hand; docs/sources.md §2).
     e = Engine("e", 300.0, 10.0, {"t": 1.0}, cant_deg=cant)
     assert e.ve / (300.0 * G0) == pytest.approx(factor, abs=5e-6)
     assert e.mass_flow == pytest.approx(10.0 / (300.0 * G0))  # the cant does not change the flow
 
 
 def test_burn_by_duration_matches_the_finite_burn_time():
-    # shared FIELD.md section 1 (computed): F = 400 N, Isp = 318 s, m0 = 3000 kg, dv = 100 m/s takes
+    # Computed by hand (docs/sources.md §2): F = 400 N, Isp = 318 s, m0 = 3000 kg, dv = 100 m/s takes
     # t_b = m0 c (1 - exp(-dv/c)) / F = 738.10 s at constant thrust (not the impulsive 750 s).
     craft = Craft("t", 1000.0, (Tank("t1", "MMH", 2000.0),), (Engine("e", 318.0, 400.0, {"t1": 1.0}),))
     rep = replay(craft, [ev(1, "burn", engine="e", duration=738.10)])
@@ -62,7 +62,7 @@ def test_burn_by_duration_matches_the_finite_burn_time():
 
 
 def test_mixture_ratio_split_and_limiting_propellant():
-    # shared FIELD.md section 2 (computed, common practice): 100 kg at MR 1.65 splits 62.264 ox / 37.736 fuel;
+    # Computed by hand, common practice (docs/sources.md §3): 100 kg at MR 1.65 splits 62.264 ox / 37.736 fuel;
     # 60 kg ox + 40 kg fuel at 1.65 is oxidiser-limited: 96.364 kg burnable, 3.636 kg fuel stranded.
     craft = Craft("t", 500.0, (Tank("ox", "MON-3", 60.0), Tank("fuel", "MMH", 40.0)),
                   (Engine("e", 310.0, 400.0, {"ox": 1.65, "fuel": 1.0}),))
@@ -77,7 +77,7 @@ def test_mixture_ratio_split_and_limiting_propellant():
 
 
 def test_yearly_propellant_for_a_routine_budget():
-    # shared FIELD.md section 6 (computed): 2000 kg at Isp 290 s spending 50 m/s per year uses 34.86 kg/yr.
+    # Computed by hand (docs/sources.md §2): 2000 kg at Isp 290 s spending 50 m/s per year uses 34.86 kg/yr.
     craft = single_tank(1500.0, 500.0, 290.0)
     rep = replay(craft, [ev(1, "burn", engine="e", dv=50.0)])
     assert rep.propellant[0] == pytest.approx(34.86, abs=0.005)

@@ -65,6 +65,8 @@ def test_bookkeeping_sigma_worked_by_hand():
     events = resolve(history()).events
     steps = steps_from_events(CRAFT, events)
     rep = replay(CRAFT, events, steps)
+    # Precondition of the hand computation below: the sampler's documented defaults (0.1 % load by weighing,
+    # 1 % Isp, core.sigmas; docs/sources.md §4, from memory), not a reference check.
     assert DEFAULT_LOAD_SIGMA_REL == 0.001 and DEFAULT_FLOW_ERROR_REL == 0.01
     # Nothing burnt: the load sigmas, 0.05 kg and 0.1 % of 30 kg.
     assert bookkeeping_sigma(CRAFT, events, steps, rep, upto=0) == pytest.approx([0.05, 0.03])

@@ -1,5 +1,5 @@
 """Two processes appending at once both succeed, one waiting on the lock; the chain stays valid.
-(RELIABILITY.md, 'Locking': TinyDB alone lost or corrupted entries in this test.)"""
+(docs/sources.md §8: TinyDB 4.9.0 alone lost or corrupted entries in this test.)"""
 from __future__ import annotations
 
 import time

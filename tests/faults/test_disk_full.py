@@ -1,7 +1,7 @@
 """A full disk and failing writes: a clear error, nothing acknowledged, the previous ledger byte-for-byte
 intact and no temporary files left. Disk full is a soft RLIMIT_FSIZE in a child process (EFBIG, SIGXFSZ
 ignored); ENOSPC and EIO are injected into the store's own write, fsync, rename and link steps
-(RELIABILITY.md: patching os.write misses open().write, so the storage's wrappers are the seam)."""
+(docs/sources.md §8: patching os.write misses open().write, so the storage's wrappers are the seam)."""
 from __future__ import annotations
 
 import errno

@@ -1,7 +1,7 @@
 """kill -9 of a writer at random moments during appends (and backups): every acknowledged entry is present
 afterwards, the file always opens, the chain always verifies, every kept backup is good.
 30 cycles by default; 200 with PROPLEDGER_SOAK=1, or run the ``soak`` test with ``-m soak``.
-(Method: RELIABILITY.md, 'Fault tests that work without root'; SQLite's crash testing does the same.)"""
+(Method: docs/sources.md §8; SQLite's crash testing, "How SQLite Is Tested", does the same.)"""
 from __future__ import annotations
 
 import os

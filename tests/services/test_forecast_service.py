@@ -13,8 +13,8 @@ from ledger.services.ledger import Ledger, create
 from ledger.services.timefmt import iso, parse_time
 
 # A monopropellant craft: hydrazine thrusters at Isp 220 s (NASA Ames SST-SoA Table 4-1: 200-235 s),
-# 2% residual (ESA SRE-PA/2011.097 via FIELD.md section 2), the 9.617 m/s GEO re-orbit reserve and
-# 45.6 m/s/yr north-south station keeping (FIELD.md section 5).
+# 2% residual (ESA SRE-PA/2011.097 via a summary; docs/sources.md §3), the 9.617 m/s GEO re-orbit reserve and
+# 45.6 m/s/yr north-south station keeping (IADC guideline and Soop; docs/sources.md §7).
 MONO = """
 craft: {name: MONO, dry_mass: 1000 kg}
 tanks: [{id: t, fluid: N2H4, load: 200 kg, residual: 4 kg}]

@@ -24,7 +24,7 @@ def after_history(snap):
 
 
 def blowdown_pressure(tank, mass_kg, t_k):
-    """Tank pressure at which a blowdown tank holds mass_kg at t_k (FIELD.md section 3, run backwards):
+    """Tank pressure at which a blowdown tank holds mass_kg at t_k (the PVT form of docs/sources.md §4, run backwards):
     helium mass from the loading conditions, ullage = V - m/rho_l(T), helium pressure at the density
     m_He/V_u from CoolProp P(D, T), plus the vapour pressure."""
     pr = tank.pressurant
@@ -47,7 +47,7 @@ def tank(snap, tank_id):
 @pytest.mark.parametrize("name, tank_id, t_k", [
     ("lunar-orbiter", "hz-1", 293.15),
     ("lunar-orbiter", "hz-2", 303.15),
-    # Xenon kept at 30 degC, clear of its critical point (289.7 K) where density moves -1.5 %/K (FIELD.md s. 4).
+    # Xenon kept at 30 degC, clear of its critical point (289.7 K) where density moves -1.5 %/K (docs/sources.md §6).
     ("leo-imager", "xe", 303.15),
     ("leo-imager", "gn2", 293.15),
 ])
@@ -64,14 +64,14 @@ def test_consistent_reading_matches_bookkeeping(snaps, name, tank_id, t_k):
     assert abs(r["propellant_kg"] - r["bookkeeping_kg"]) < r["sigma_kg"]
     assert r["propellant_kg"] == pytest.approx(book, rel=1e-6)  # the same physics both ways
     assert abs(r["difference_sigma"]) < 1e-3 and not r["flagged"]
-    # Plausible sigmas: PVT near end of life is poor (FIELD.md section 3: 4.8 % of load at end of life), but a
-    # sigma is neither zero nor larger than what is left.
+    # Plausible sigmas: PVT near end of life is poor (Shaik et al., Aerospace 10(6):567, 2023: 4.8 % at end
+    # of life), but a sigma is neither zero nor larger than what is left.
     assert 0.0 < r["sigma_kg"] < book and 0.0 < r["bookkeeping_sigma_kg"] < book
     assert r["rebaseline_sigma_kg"] < min(r["sigma_kg"], r["bookkeeping_sigma_kg"])
 
 
 def test_lunar_blowdown_error_grows_as_the_tank_empties(snaps):
-    # FIELD.md section 3 [computed]: dm/m ~ (V_u/V_p)(dP/P (+) dT/T): late in life, with the ullage about seven
+    # Computed (docs/sources.md §4): dm/m ~ (V_u/V_p)(dP/P (+) dT/T): late in life, with the ullage about seven
     # times the liquid, a 15 kPa sensor on a 7 bar reading costs over 10 % of what is left.
     snap = snaps["lunar-orbiter"]
     tk = tank(snap, "hz-1")

@@ -12,7 +12,7 @@ from ledger.errors import InputError, StoreError
 from ledger.services import handover
 from ledger.services.timefmt import iso
 
-# Rocket equation (Sutton & Biblarz, Rocket Propulsion Elements, ch. 2-4; FIELD.md section 1, from memory):
+# Rocket equation (Sutton & Biblarz, Rocket Propulsion Elements, 9th ed., ch. 2-4, from memory):
 # ve = Isp g0, propellant for dv: m (1 - exp(-dv/ve)), dv from propellant p: ve ln(m / (m - p)),
 # mass flow = F / (Isp g0). Craft values: tests/conftest.py.
 VE_THR = 290 * G0

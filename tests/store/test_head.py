@@ -1,5 +1,5 @@
 """The chain head recorded outside the ledger catches what a hash chain alone cannot: cut-off entries and a
-file rewritten with a fresh, self-consistent chain (RELIABILITY.md, 'Tamper evidence'; the same idea as
+file rewritten with a fresh, self-consistent chain (docs/sources.md §8; the same idea as
 the signed tree head of RFC 6962)."""
 from __future__ import annotations
 

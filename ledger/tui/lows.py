@@ -204,3 +204,17 @@ def panel_inputs(snap: Snapshot, status: dict[str, Any], tanks: list[dict[str, A
             approve = "unchecked" if lows.error is not None else "approved?"
             approvals[p.seq] = "none" if d is None else approve if d.kind == "approve" else "rejected"
     return tank_rows, list(engines.values()), fc["engines"], approvals
+
+
+def plan_verdicts(res: dict[str, Any] | None) -> dict[str, dict[str, Any]]:
+    """Plan id (text) -> its check now at the console's confidence, once the low-bound run has finished."""
+    if not res:
+        return {}
+    return {pid: a["verdict_now"] for pid, a in res.get("approvals", {}).items() if a.get("verdict_now")}
+
+
+def shown_warnings(status: dict[str, Any], res: dict[str, Any] | None) -> list[str]:
+    """The one warning list (services.warnings): the replay's warnings plus every failing pending plan."""
+    from ..services.warnings import combined  # noqa: PLC0415
+
+    return combined(status["warnings"], status["pending_plans"], plan_verdicts(res))

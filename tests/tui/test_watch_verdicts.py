@@ -64,3 +64,25 @@ def test_watch_list_says_what_it_hides_at_80x24(tmp_path):
             assert str(total - (len(shown) - 1)) in shown[-1]
 
     run(go())
+
+
+def test_console_says_when_routine_engines_share_tanks(tmp_path):
+    """Issue 11 point 5: the geostationary scenario's two routine engines (nsk and ewk) both draw on ox and
+    fuel; each run-out date assumes only its own spend, so the console says so next to the dates, as
+    `status` does (services.forecast notes)."""
+    from ledger.services import scenario  # noqa: PLC0415
+    from ledger.tui.widgets.state import EngineTable  # noqa: PLC0415
+
+    path = str(tmp_path / "geo.json")
+    scenario.build(scenario.bundled()["geo-comsat"], path)
+
+    async def go():
+        for size, words in (((160, 48), "shared tanks"), ((80, 24), "shared")):
+            app = make_app(path)
+            async with app.run_test(size=size) as pilot:
+                await ready(app, pilot)
+                await pilot.pause(0.3)
+                lines = [ln for ln in str(app.main.query_one(EngineTable).render()).splitlines() if "↘" in ln]
+                assert lines and all(words in ln for ln in lines if "nsk" in ln or "ewk" in ln), lines
+
+    run(go())

@@ -18,7 +18,7 @@ from .. import __version__
 from ..store import sidefiles
 
 SUFFIX = ".confidence-cache.json"
-PURPOSE = "propledger confidence cache v1"
+PURPOSE = "propledger confidence cache v2"
 MAX_BYTES = 64 << 20
 
 

@@ -84,7 +84,10 @@ def _plans(snap: Snapshot, status: Mapping[str, Any], end: float) -> tuple[list[
         row["overdue"] = parse_time(p["at"], "plan time") < end
         if row["overdue"]:
             warnings.append(f"plan #{p['id']} was due at {p['at']} and is neither executed nor withdrawn")
-        if res.get("verdict") == "infeasible":
+        if p.get("verdict_now"):  # the check at the ledger's confidence: its warning is in status already
+            row["check"].update(verdict=p["verdict_now"]["verdict"], probability=p["verdict_now"].get("probability"),
+                                samples=p["verdict_now"].get("samples"))
+        elif res.get("verdict") == "infeasible":  # low bounds could not be computed: the nominal check's word
             warnings.append(f"plan #{p['id']} fails its check: {res.get('reason')}")
         rows.append(row)
     return rows, warnings

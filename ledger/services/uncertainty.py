@@ -16,6 +16,7 @@ from ..errors import InputError
 from .ledger import Snapshot
 from .forecast import forecast
 from .timefmt import iso
+from .warnings import combined
 from .views import CAUTION, status
 
 if TYPE_CHECKING:
@@ -127,13 +128,19 @@ def _changed_since(snap: Snapshot, head_seq: int) -> bool:
     return any(e.seq > head_seq and e.kind not in DECISIONS for e in snap.entries)
 
 
-def approvals(snap: Snapshot, s: mc.Samples) -> dict[int, dict[str, Any]]:
-    """Per pending plan: approval approved | rejected | stale | none, with the evidence for the answer."""
+VERDICT_KEYS = ("verdict", "probability", "confidence", "samples", "reason", "dv_free_after_m_s")
+
+
+def approvals(snap: Snapshot, s: mc.Samples, confidence: float = DEFAULT_CONFIDENCE) -> dict[int, dict[str, Any]]:
+    """Per pending plan: approval approved | rejected | stale | none, with the evidence for the answer, and
+    ``verdict_now``: the plan's check now at ``confidence`` (the other pending plans flown first)."""
     out: dict[int, dict[str, Any]] = {}
     for p in snap.resolved.pending:
+        current = plan_check(snap, s, p.seq, confidence)
+        verdict_now = {k: current[k] for k in VERDICT_KEYS if k in current}
         d = snap.resolved.decisions.get(p.seq)
         if d is None:
-            out[p.seq] = {"approval": "none"}
+            out[p.seq] = {"approval": "none", "verdict_now": verdict_now}
             continue
         then = dict(d.get("check") or {})
         row: dict[str, Any] = {"approval": "approved" if d.kind == APPROVE else "rejected", "entry": d.seq,
@@ -147,6 +154,7 @@ def approvals(snap: Snapshot, s: mc.Samples) -> dict[int, dict[str, Any]]:
                 row.update(approval="stale", reason=f"verdict now {now['verdict']}, was {then.get('verdict')}")
             elif moved > tolerance:
                 row.update(approval="stale", reason=f"dv free after moved {moved:.3f} m/s (tolerance {tolerance:.3f})")
+        row["verdict_now"] = verdict_now
         out[p.seq] = row
     return out
 
@@ -191,7 +199,7 @@ def _confidence_status(snapshot: Snapshot, confidence: float, samples: int, seed
                            "dv_free": stats(free[:, i]), "dv_available": stats(avail[:, i])}
                     for i, e in enumerate(craft.engines)},
         "reserves_probability": float(sampled.reserves_intact(craft, s).mean()),
-        "approvals": {str(k): v for k, v in approvals(snapshot, s).items()},
+        "approvals": {str(k): v for k, v in approvals(snapshot, s, confidence).items()},
         "caution": CAUTION,
     }
 
@@ -210,11 +218,15 @@ def status_with_confidence(snap: Snapshot, confidence: float = DEFAULT_CONFIDENC
     # views.status built the forecast before any low bound existed: rebuild it now that they do, so the
     # low-bound run-out date sits beside the nominal one (issue 11, point 5).
     data["forecast"] = forecast(snap, data)
+    verdicts = {}
     for row in data["pending_plans"]:
         a = u["approvals"][str(row["id"])]
         row["approval"] = a["approval"]
         if a["approval"] != "none":
-            row["approval_detail"] = {k: v for k, v in a.items() if k != "approval"}
+            row["approval_detail"] = {k: v for k, v in a.items() if k not in ("approval", "verdict_now")}
+        if a.get("verdict_now"):
+            row["verdict_now"] = verdicts[str(row["id"])] = a["verdict_now"]
+    data["warnings"] = combined(data["warnings"], data["pending_plans"], verdicts)
     data["uncertainty"] = {"samples": u["samples"], "seed": u["seed"], "segments": u["segments"],
                            "reserves_probability": u["reserves_probability"], "mass_low_kg": u["mass_kg"]["low"],
                            "mass_sd_kg": u["mass_kg"]["sd"]}

@@ -25,7 +25,7 @@ from .dialogs.decide import DecideForm
 from .dialogs.detail import AlertsDialog, DetailDialog
 from .dialogs.entries import BurnForm, CorrectForm, MassForm, PlanForm, UseForm, WithdrawForm
 from .dialogs.gauge import GaugeForm, RebaselineForm
-from .lows import LowBounds
+from .lows import LowBounds, shown_warnings
 from .screens.main import MainScreen
 
 POLL_S = 0.3
@@ -227,7 +227,8 @@ class LedgerConsole(App):
             chain = ("intact" if self.live.verified else "being checked") if self.snap.integrity is None \
                 else f"BROKEN: {self.snap.integrity}"
             notes = [self.lows.summary()] if self.lows.error else []
-            self.push_screen(AlertsDialog(chain, notes + [w for w in self.snap.warnings
+            status = self.main.status or {"warnings": list(self.snap.warnings), "pending_plans": []}
+            self.push_screen(AlertsDialog(chain, notes + [w for w in shown_warnings(status, self.lows.result)
                                                            if not w.startswith("INTEGRITY")]))
 
     def open_detail(self, seq: int) -> None:

@@ -203,4 +203,31 @@ def panel_inputs(snap: Snapshot, status: dict[str, Any], tanks: list[dict[str, A
             d = snap.resolved.decisions.get(p.seq)
             approve = "unchecked" if lows.error is not None else "approved?"
             approvals[p.seq] = "none" if d is None else approve if d.kind == "approve" else "rejected"
-    return tank_rows, list(engines.values()), fc["engines"], approvals
+    return tank_rows, list(engines.values()), with_shares(snap, fc["engines"]), approvals
+
+
+def with_shares(snap: Snapshot, rows: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """Forecast rows with ``shares_with``: the other routine engines drawing on the same tanks (each date
+    assumes only its own routine spend, so such dates are optimistic; the command line says the same)."""
+    from ..core.forecast import shared_tanks  # noqa: PLC0415
+
+    pairs = shared_tanks(snap.craft, [f["engine"] for f in rows if f.get("dv_per_year_m_s")])
+    out = []
+    for f in rows:
+        others = sorted({b if a == f["engine"] else a for a, b, _ in pairs if f["engine"] in (a, b)})
+        out.append(dict(f, shares_with=others) if others else f)
+    return out
+
+
+def plan_verdicts(res: dict[str, Any] | None) -> dict[str, dict[str, Any]]:
+    """Plan id (text) -> its check now at the console's confidence, once the low-bound run has finished."""
+    if not res:
+        return {}
+    return {pid: a["verdict_now"] for pid, a in res.get("approvals", {}).items() if a.get("verdict_now")}
+
+
+def shown_warnings(status: dict[str, Any], res: dict[str, Any] | None) -> list[str]:
+    """The one warning list (services.warnings): the replay's warnings plus every failing pending plan."""
+    from ..services.warnings import combined  # noqa: PLC0415
+
+    return combined(status["warnings"], status["pending_plans"], plan_verdicts(res))

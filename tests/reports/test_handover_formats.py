@@ -193,3 +193,27 @@ def test_text_and_markdown_do_not_load_matplotlib(report, tmp_path):
             "render(r, 'text'); render(r, 'md'); print('matplotlib' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code, str(path)], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_chart_axis_stops_at_a_horizon_and_names_dates_beyond():
+    """Issue 11 point 5: a run-out centuries away (a small routine rate) squashed the whole history into the
+    left edge. The axis now ends at the later of 2 x the soonest nominal run-out span and 30 years; later
+    dates are named at the right edge. Times in POSIX seconds; one Julian year = 365.25 d (IAU)."""
+    from ledger.reports.chart import horizon  # noqa: PLC0415
+
+    year = 365.25 * 86400.0
+    now = 2.0 * year
+    series = {"nsk": {"history_t": [0.0, now], "history_dv": [400.0, 300.0],
+                      "projection_t": [now, now + 6 * year], "projection_dv": [300.0, 0.0]},
+              "ewk": {"history_t": [0.0, now], "history_dv": [60.0, 50.0],
+                      "projection_t": [now, now + 400 * year], "projection_dv": [50.0, 0.0]}}
+    t0, t1 = horizon(series)
+    assert t0 == 0.0 and t1 == now + 30 * year  # 2 x 6 years < 30 years
+    root = ElementTree.fromstring(svg(series))
+    texts = ["".join(t.itertext()) for t in root.iter() if t.tag.endswith("text")]
+    assert any(t.startswith("ewk runs out 2372-") for t in texts)  # 1970 + 402 years, past the axis
+    assert not any(t.startswith("nsk runs out") for t in texts)
+    long = dict(series, nsk=dict(series["nsk"], projection_t=[now, now + 20 * year]))
+    assert horizon(long)[1] == now + 40 * year  # 2 x 20 years > 30 years
+    alone = {"ewk": series["ewk"]}  # only the far run-out: the axis stops at 60 years and names the date
+    assert horizon(alone)[1] == now + 60 * year

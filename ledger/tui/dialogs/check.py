@@ -15,6 +15,7 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Input, Label, Select, Static
 
+from ...services.probtext import prob_text
 from ...errors import LedgerError
 from ...services import browse, uncertainty
 from ...services.views import CAUTION
@@ -31,12 +32,12 @@ WAIT_S = 0.3
 
 
 def confidence_text(res: dict[str, Any]) -> Text:
-    """'at 99% confidence: ◐ MARGINAL  reserves intact with p 0.9812 ± 0.0014', then dv free after and its low."""
+    """'at 99% confidence: ◐ MARGINAL  reserves intact with p 0.981 ± 0.001', then dv free after and its low."""
     label, style = VERDICT_TAG[res["verdict"]]
     out = Text()
     out.append(f"at {res['confidence']:.0%} confidence: ", style="bold")
     out.append(label, style=style)
-    out.append(f"  reserves intact with p {res['probability']:.4f} ± {res['probability_se']:.4f}\n")
+    out.append(f"  reserves intact with {prob_text(res['probability'], res.get('samples'))}\n")
     out.append(f"dv free after {res['dv_free_after_m_s']:,.2f} m/s, low {res['dv_free_after_low_m_s']:,.2f} · "
                f"{res['samples']:,} samples, seed {res['seed']}", style="grey70")
     return out

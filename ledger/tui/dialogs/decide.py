@@ -11,6 +11,7 @@ from rich.text import Text
 from textual.app import ComposeResult
 from textual.widgets import Static
 
+from ...services.probtext import prob_text
 from ...core.entries import APPROVE, REJECT
 from ...errors import LedgerError
 from ...services import approvals, browse
@@ -107,7 +108,7 @@ class DecideForm(FormDialog):
         stored, check, warnings = result
         word = "approved" if stored["kind"] == APPROVE else "rejected"
         summary = (f"plan #{stored['data']['plan']} {word} by {stored['by']}: check {check['verdict']}, reserves "
-                   f"intact with probability {check['probability']:.4f} at {check['confidence']:g}")
+                   f"intact with {prob_text(check['probability'], check.get('samples'))} at {check['confidence']:g}")
         self.app.notify(summary, timeout=10)
         self.app.recorded(stored["seq"], stored["kind"], warnings)
         self.dismiss(stored)

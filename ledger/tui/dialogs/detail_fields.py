@@ -7,6 +7,7 @@ from __future__ import annotations
 
 from typing import Any, Mapping
 
+from ...services.probtext import prob_text
 from .. import fmt
 
 Line = tuple[str, str, str]  # label, value, style
@@ -83,7 +84,7 @@ def decision_lines(d: Mapping[str, Any], approval_now: str | None = None) -> lis
     out: list[Line] = [
         ("plan", f"#{d.get('plan')}  {c.get('engine', '')} {float(c.get('dv_m_s', 0.0)):,.3f} m/s", "bold"),
         ("check then", f"{c.get('verdict', '?').upper()}", "green" if ok else FLAG_STYLE),
-        ("probability", f"{float(c.get('probability', 0.0)):.4f} ± {float(c.get('probability_se', 0.0)):.4f} that "
+        ("probability", f"{prob_text(float(c.get('probability', 0.0)), c.get('samples'), prefix='')} that "
                         f"all reserves stay intact (confidence {float(c.get('confidence', 0.0)):g})", ""),
         ("dv free after", f"{float(c.get('dv_free_after_m_s', 0.0)):,.2f} m/s (low "
                           f"{float(c.get('dv_free_after_low_m_s') or 0.0):,.2f})", ""),

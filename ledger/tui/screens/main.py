@@ -16,7 +16,7 @@ from textual.widgets import Input, Label, Static
 from ...services import browse, views
 from ...services.ledger import Snapshot
 from .. import actions, fmt
-from ..lows import panel_inputs
+from ..lows import panel_inputs, plan_verdicts, shown_warnings
 from ..widgets.keybar import KeyBar
 from ..widgets.state import EngineTable, TankGauges
 from ..widgets.grid import LedgerGrid
@@ -117,8 +117,9 @@ class MainScreen(Screen):
             chain = ("…", f"checking {len(snap.entries):,} links", "yellow")
         else:
             chain = ("✓", f"intact ({len(snap.entries):,} links)", "green")
-        warnings = [w for w in st["warnings"] if not w.startswith("INTEGRITY")]
-        self.query_one(WatchList).show(chain, st["pending_plans"], warnings, self.approvals)
+        warnings = [w for w in shown_warnings(st, lows.result) if not w.startswith("INTEGRITY")]
+        verdicts = plan_verdicts(lows.result)
+        self.query_one(WatchList).show(chain, st["pending_plans"], warnings, self.approvals, verdicts)
 
     def lows_changed(self) -> None:
         """The low-bound worker moved on: redraw the state panels and the plan rows' approval states."""

@@ -151,10 +151,13 @@ def forecast_line(f: dict[str, Any], wide: bool) -> Text:
     if f.get("runs_out") is None:
         out.append("no routine spend" if not f.get("dv_per_year_m_s") else "does not run out")
         return out
-    out.append(f"runs out {f['runs_out'][:10 if wide else 7]}")
+    shared = bool(f.get("shares_with"))
+    out.append(f"runs out {f['runs_out'][:10]}" if wide else f"{'to' if shared else 'runs out'} {f['runs_out'][:7]}")
     low = f.get("low")
-    out.append(", low " if wide else " · low ")
+    out.append(", low " if wide or shared else " · low ")
     out.append(PENDING if low is None else (low["runs_out"] or "never")[:10 if wide else 7], style="bold")
-    if wide:
+    if wide and not f.get("shares_with"):
         out.append(f" at {f['dv_per_year_m_s']:g} m/s/y", style="grey70")
+    if f.get("shares_with"):  # both dates assume only their own spend from tanks another engine drains too
+        out.append(" · shared tanks" if wide else " · shared", style="yellow")  # status says why: optimistic
     return out

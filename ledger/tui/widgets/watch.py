@@ -21,10 +21,16 @@ def approval_text(state: str | None, wide: bool) -> Text:
     return Text(f"{sym} {words}", style=style)
 
 
-def plan_lines(plans: Sequence[Mapping[str, Any]], approvals: Mapping[int, str], width: int, now: str
-               ) -> list[Text]:
+VERDICT_WORD = {"feasible": ("✓ go", "green"), "marginal": ("◐ MARGINAL", "bold yellow"),
+                "infeasible": ("✗ INFEASIBLE", "bold red")}
+"""A plan's check now, as a glyph and a word (never colour alone)."""
+
+
+def plan_lines(plans: Sequence[Mapping[str, Any]], approvals: Mapping[int, str], width: int, now: str,
+               verdicts: Mapping[str, Mapping[str, Any]] | None = None) -> list[Text]:
     """Pending plans in the richest wording that fits ``width`` for all of them (one wording for the list):
-    time, lateness, approval state."""
+    time, lateness, approval state, and the plan's check now (or '… checking' until the samples are in)."""
+    verdicts = verdicts or {}
     def wordings(p: Mapping[str, Any]) -> list[Text]:
         late = p["at"][:16] < now
         when = fmt.when(p["at"])
@@ -40,6 +46,10 @@ def plan_lines(plans: Sequence[Mapping[str, Any]], approvals: Mapping[int, str],
             line = Text(text + (late_word if late else ""), style="yellow")
             line.append(" ")
             line.append_text(approval_text(approvals.get(p["id"]), wide))
+            v = verdicts.get(str(p["id"]))
+            word, style = VERDICT_WORD.get(v["verdict"], ("?", "")) if v else ("… checking", "#9e9e9e")
+            line.append(" · ")
+            line.append(word, style=style)
             out.append(line)
         return out
 
@@ -59,11 +69,15 @@ class WatchList(Widget):
         self.pending: Sequence[dict[str, Any]] = ()
         self.approvals: Mapping[int, str] = {}
         self.warnings: Sequence[str] = ()
+        self.verdicts: Mapping[str, Mapping[str, Any]] = {}
 
-    def show(self, chain: tuple[str, str, str], pending, warnings, approvals: Mapping[int, str] | None = None) -> None:
-        """``approvals``: plan id -> approved | rejected | stale | none | approved? (not yet re-checked)."""
+    def show(self, chain: tuple[str, str, str], pending, warnings, approvals: Mapping[int, str] | None = None,
+             verdicts: Mapping[str, Mapping[str, Any]] | None = None) -> None:
+        """``approvals``: plan id -> approved | rejected | stale | none | approved? (not yet re-checked);
+        ``verdicts``: plan id (text) -> its check now."""
         self.chain, self.pending, self.warnings = chain, pending, warnings
         self.approvals = approvals or {}
+        self.verdicts = verdicts or {}
         self.refresh(layout=True)
 
     def _warning_lines(self, width: int) -> list[str]:
@@ -78,17 +92,28 @@ class WatchList(Widget):
     def get_content_height(self, container, viewport, width: int) -> int:
         return 1 + max(1, len(self.pending)) + max(1, len(self._warning_lines(width)))
 
-    def render(self) -> Text:
-        w = max(10, self.size.width)
+    def all_lines(self, w: int) -> list[Text]:
         lines = []
         sym, text, style = self.chain
         lines.append(Text(f"{sym} chain {text}", style=style))
         if not self.pending:
             lines.append(Text("◇ no pending plans", style="#9e9e9e"))
         now = datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M")
-        lines += plan_lines(self.pending, self.approvals, w, now)
+        lines += plan_lines(self.pending, self.approvals, w, now, self.verdicts)
         if not self.warnings:
             lines.append(Text("✓ no warnings", style="green"))
         for line in self._warning_lines(w):
             lines.append(Text(line, style="#ff8700"))
+        return lines
+
+    def render(self) -> Text:
+        """Every line that fits; when some do not, the last visible line says how many are hidden and that
+        the alerts key shows them all (a hidden warning must never look like no warning)."""
+        w = max(10, self.size.width)
+        lines = self.all_lines(w)
+        room = self.size.height
+        if room and len(lines) > room:
+            hidden = len(lines) - (room - 1)
+            lines = lines[:room - 1] + [Text(f"▼ {hidden} more line{'s' if hidden > 1 else ''}: press a for all",
+                                             style="bold #ff8700")]
         return Text("\n").join(fmt.fit(line, w) for line in lines)

@@ -34,7 +34,8 @@ def test_confidence_status_in_a_worker_with_progress(tmp_path):
     t, e = out["tanks"]["t"], out["engines"]["e"]
     assert t["usable_low_kg"] < t["usable"]["mean"] and e["dv_free_low_m_s"] < e["dv_free"]["mean"]
     assert abs(e["dv_free"]["mean"] - e["dv_free_m_s"]) < 4 * e["dv_free"]["sd"]
-    assert out["approvals"] == {"2": {"approval": "none"}} and out["confidence"] == 0.95
+    assert out["approvals"]["2"]["approval"] == "none" and out["confidence"] == 0.95
+    assert out["approvals"]["2"]["verdict_now"]["confidence"] == 0.95  # the plan's check now, same run
     assert "Decision support only" in out["caution"]
 
 

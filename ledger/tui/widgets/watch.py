@@ -40,6 +40,8 @@ def plan_lines(plans: Sequence[Mapping[str, Any]], approvals: Mapping[int, str],
             (f"◇ #{p['id']} {p['engine']} {p['dv_m_s']:,.2f} m/s {when[5:10]}", " late", False),
             (f"◇ #{p['id']} {p['engine']} {p['dv_m_s']:,.1f} m/s {when[5:10]}", " late", False),
             (f"#{p['id']} {p['engine']} {p['dv_m_s']:,.1f} m/s {when[5:10]}", " late", False),
+            (f"#{p['id']} {p['engine']} {p['dv_m_s']:,.1f} m/s", " late", False),  # narrow: the verdict first
+            (f"#{p['id']} {p['engine']} {p['dv_m_s']:,.1f}", " late", False),
         ]
         out = []
         for text, late_word, wide in tries:
@@ -47,14 +49,14 @@ def plan_lines(plans: Sequence[Mapping[str, Any]], approvals: Mapping[int, str],
             line.append(" ")
             line.append_text(approval_text(approvals.get(p["id"]), wide))
             v = verdicts.get(str(p["id"]))
-            word, style = VERDICT_WORD.get(v["verdict"], ("?", "")) if v else ("… checking", "#9e9e9e")
-            line.append(" · ")
+            word, style = VERDICT_WORD.get(v["verdict"], ("?", "")) if v else ("… checking" if wide else "…", "#9e9e9e")
+            line.append(" · " if wide else " ")
             line.append(word, style=style)
             out.append(line)
         return out
 
     options = [wordings(p) for p in plans]
-    for i in range(5):
+    for i in range(len(options[0]) if options else 0):
         if all(o[i].cell_len <= width for o in options):
             return [o[i] for o in options]
     return [o[-1] for o in options]

@@ -163,6 +163,8 @@ def _plans(r: Mapping[str, Any]) -> list[Block]:
     for p in r["plans"]:
         c = p["check"]
         line = f"#{p['id']}: {c.get('reason', '')}; after {c.get('commitments', 0)} other pending plan(s)"
+        if c.get("limiting_tank"):
+            line += f"; limiting tank {c['limiting_tank']} (runs out first)"
         if c.get("probability") is not None:
             line += f"; {prob_text(c['probability'], c.get('samples'), prefix='probability ')}"
         if p.get("overdue"):

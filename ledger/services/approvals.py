@@ -19,7 +19,7 @@ if TYPE_CHECKING:
     from ..core import montecarlo as mc
 
 KEPT = ("engine", "dv_m_s", "verdict", "probability", "probability_se", "confidence", "dv_free_after_m_s",
-        "dv_free_after_low_m_s", "samples", "seed", "limiting_tank", "reason")
+        "dv_free_after_low_m_s", "samples", "seed", "limiting_tank", "least_margin_tank", "reason")
 
 
 def decide(ledger: Ledger, kind: str, plan: Any, by: str | None, note: str | None = None,

@@ -79,7 +79,7 @@ def _plans(snap: Snapshot, status: Mapping[str, Any], end: float) -> tuple[list[
         row = dict(p)
         res = views.check(snap, p["engine"], float(p["dv_m_s"]), exclude_plan=int(p["id"]))
         row["check"] = {k: res.get(k) for k in ("verdict", "reason", "propellant_kg", "dv_free_after_m_s",
-                                                "limiting_tank", "probability") if k in res}
+                                                "limiting_tank", "least_margin_tank", "probability") if k in res}
         row["check"]["commitments"] = len(res.get("commitments", []))
         row["overdue"] = parse_time(p["at"], "plan time") < end
         if row["overdue"]:

@@ -74,7 +74,7 @@ def test_check_status_and_approve_agree_on_the_limiting_tank(tmp_path):
     assert check["limiting_tank"] == limiting
     assert check["least_margin_tank"] == least
 
-    approve = json.loads(run("--ledger", path, "approve", "1", "--by", "lead", "--samples", "500", "--json",
+    approve = json.loads(run("--ledger", path, "approve", "--plan", "1", "--by", "lead", "--samples", "500", "--json",
                              check=True).stdout)
     assert approve["check"]["limiting_tank"] == limiting
     assert approve["check"]["least_margin_tank"] == least

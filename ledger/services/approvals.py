@@ -42,7 +42,12 @@ def decide(ledger: Ledger, kind: str, plan: Any, by: str | None, note: str | Non
     check = uncertainty.plan_check(snap, s, seq, confidence)
     data = {"plan": seq, "check": {k: check[k] for k in KEPT} | {"commitments": len(check["commitments"])},
             "head": {"seq": snap.head[0], "hash": snap.head[1]}}
+    before = snap.resolved.decisions.get(seq)
     stored, warnings = ledger.record(kind, data, by=by, note=note, snap=snap)
+    if before is not None and before.kind == kind:
+        word = "approved" if kind == APPROVE else "rejected"
+        warnings = [f"plan {seq} was already {word} (entry {before.seq} by {before.by}); this {kind} is recorded "
+                    "as well and is now the one that stands", *warnings]
     if kind == APPROVE and check["verdict"] != "feasible":
         warnings = [f"plan {seq} approved although its check is {check['verdict']} "
                     f"({prob_text(check['probability'], check.get('samples'))} at confidence {confidence:g})", *warnings]

@@ -92,3 +92,15 @@ def test_approving_an_approved_plan_says_so(tmp_path):
     run("--ledger", path, "approve", "--plan", str(plan), "--by", "lead", "--samples", "500", check=True)
     proc = run("--ledger", path, "approve", "--plan", str(plan), "--by", "lead2", "--samples", "500", check=True)
     assert f"plan {plan} was already approved" in proc.stdout + proc.stderr
+
+
+def test_an_approval_made_stale_by_a_later_burn_warns(tmp_path):
+    path = _ledger(tmp_path)
+    plan = _plan_id(path)
+    run("--ledger", path, "approve", "--plan", str(plan), "--by", "lead", "--samples", "500", check=True)
+    # 200 m/s on the same engine takes 200 m/s off dv free after (delta-v adds on one engine,
+    # Tsiolkovsky), far beyond the staleness tolerance.
+    run("--ledger", path, "burn", "--engine", "lae", "--dv", "200 m/s", "--at", "2026-05-01T00:00:00Z", check=True)
+    said = run("--ledger", path, "burn", "--engine", "lae", "--dv", "10 m/s", "--plan", str(plan), "--at", AT,
+               check=True).stderr
+    assert "approval" in said and "is stale: dv free after moved 200.000 m/s" in said

@@ -104,3 +104,11 @@ def test_an_approval_made_stale_by_a_later_burn_warns(tmp_path):
     said = run("--ledger", path, "burn", "--engine", "lae", "--dv", "10 m/s", "--plan", str(plan), "--at", AT,
                check=True).stderr
     assert "approval" in said and "is stale: dv free after moved 200.000 m/s" in said
+
+
+def test_a_bad_tolerance_in_the_craft_file_is_one_clear_error(tmp_path):
+    craft = tmp_path / "craft.yaml"
+    craft.write_text(CRAFT + "operations:\n  plan_dv_tolerance: {relative: lots}\n")
+    proc = run("--ledger", str(tmp_path / "x.ledger.json"), "init", "--craft", str(craft))
+    assert proc.returncode == 2 and proc.stderr.count("propledger:") == 1
+    assert "plan_dv_tolerance.relative" in proc.stderr and not (tmp_path / "x.ledger.json").exists()

@@ -150,6 +150,8 @@ def cmd_check(args) -> int:
             f"{esc(t)} {kg:.3f}" for t, kg in data["propellant_by_tank_kg"].items()) + ")")
         out.print(f"dv free after {data['dv_free_after_m_s']:.2f} m/s (low {data['dv_free_after_low_m_s']:.2f}); "
                   f"{esc(data['reason'])}")
+        out.print(f"limiting tank {esc(str(data['limiting_tank'] or '-'))} (runs out first); "
+                  f"least margin after reserves: {esc(str(data['least_margin_tank']))}")
         out.print(f"[dim]{esc(data['caution'])}[/]")
     return EXIT[data["verdict"]]
 

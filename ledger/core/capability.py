@@ -52,10 +52,11 @@ def dv_available_many(craft: Craft, mass, remaining, engine: int, ve=None) -> tu
     mass, remaining = np.asarray(mass, dtype=float), np.asarray(remaining, dtype=float)
     frac = craft.feed_fractions()[engine]
     fed = np.flatnonzero(frac > 0)
-    use = np.maximum(0.0, remaining - craft.residuals())
-    per_feed = use[..., fed] / frac[fed]
+    # The limiting tank is picked before the floor at zero, so an overdrawn tank is named rather than
+    # the first of several empty ones; the draw itself is floored (identical minimum).
+    per_feed = (remaining - craft.residuals())[..., fed] / frac[fed]
     k = np.argmin(per_feed, axis=-1)
-    x = np.take_along_axis(per_feed, k[..., None], axis=-1)[..., 0]
+    x = np.maximum(0.0, np.take_along_axis(per_feed, k[..., None], axis=-1)[..., 0])
     ok = (mass > 0) & (mass - x > 0)
     with np.errstate(divide="ignore", invalid="ignore"):
         dv = np.where(ok, _ve(craft, ve)[..., engine] * np.log(mass / (mass - x)), 0.0)
@@ -156,11 +157,19 @@ def dv_free(craft: Craft, state: State, engine: int) -> tuple[float, str | None,
     return float(dv[0]), _tank(craft, k[0]), bool(met[0])
 
 
+def limiting_tank(craft: Craft, state: State, engine: int) -> str | None:
+    """The engine's limiting tank: the one whose usable propellant, over its feed share, runs out first.
+
+    This is the one meaning of "limiting tank" everywhere (status, check, approvals, handover); the tank
+    left with the fewest kg after the reserves is a different figure (``CheckResult.least_margin_tank``)."""
+    return dv_available(craft, state, engine)[1]
+
+
 def capability(craft: Craft, state: State) -> list[EngineCapability]:
     out = []
     for i, eng in enumerate(craft.engines):
-        avail, _ = dv_available(craft, state, i)
-        free, limiting, met = dv_free(craft, state, i)
+        avail, limiting = dv_available(craft, state, i)
+        free, _, met = dv_free(craft, state, i)
         out.append(EngineCapability(eng.id, avail, min(free, avail), limiting, met))
     return out
 
@@ -180,6 +189,9 @@ class CheckResult:
     propellant_by_tank: dict[str, float]
     dv_free_after_m_s: float
     limiting_tank: str | None
+    """After the burn, the tank whose usable propellant over its feed share runs out first (as status)."""
+    least_margin_tank: str
+    """The tank with the fewest kg left after commitments, the burn and every reserve."""
     margin_by_tank: dict[str, float]
     """Usable propellant left in each tank after commitments, the burn and every reserve (kg)."""
     commitments: tuple[tuple[str, float], ...]
@@ -206,14 +218,14 @@ def check(craft: Craft, state: State, engine_id: str, dv: float,
     elif short_all.any():
         reason = f"reserves no longer met: tank {ids[worst]} short by {-margin[worst]:.3f} kg"
     else:
-        reason = f"reserves intact; tightest tank {ids[worst]} keeps {margin[worst]:.3f} kg"
+        reason = f"reserves intact; least margin after reserves in tank {ids[worst]}: {margin[worst]:.3f} kg"
     e = craft.engine_index(engine_id)
-    free_after, limiting, _ = dv_free(craft, after_burn, e) if not short_burn.any() else (0.0, None, False)
+    free_after, _, _ = dv_free(craft, after_burn, e) if not short_burn.any() else (0.0, None, False)
     draw = draws[0]
     return CheckResult(
         engine=engine_id, dv_m_s=dv, feasible=feasible, propellant_kg=float(draw.sum()),
         propellant_by_tank={t: float(x) for t, x in zip(ids, draw) if x > 0},
         dv_free_after_m_s=float(free_after) if feasible else 0.0,
-        limiting_tank=ids[worst], margin_by_tank={t: float(x) for t, x in zip(ids, margin)},
+        limiting_tank=limiting_tank(craft, after_burn, e), least_margin_tank=ids[worst], margin_by_tank={t: float(x) for t, x in zip(ids, margin)},
         commitments=tuple(commitments), reason=reason,
     )

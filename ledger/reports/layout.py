@@ -115,7 +115,7 @@ def _state(r: Mapping[str, Any]) -> list[Block]:
                  for t in s["tanks"])
     out.append(Block("table", headers=headers, rows=rows, align="ll" + "r" * (len(headers) - 2)))
     low_e = any("dv_free_low_m_s" in e for e in s["engines"])
-    headers = ("engine", "dv available m/s", "dv free m/s") + (("dv free low m/s",) if low_e else ()) + ("limit",)
+    headers = ("engine", "dv available m/s", "dv free m/s") + (("dv free low m/s",) if low_e else ()) + ("limiting tank",)
     rows = tuple((e["id"], num(e["dv_available_m_s"]), num(e["dv_free_m_s"]))
                  + ((num(e.get("dv_free_low_m_s")),) if low_e else ()) + (e.get("limiting_tank") or NONE,)
                  for e in s["engines"])
@@ -163,6 +163,8 @@ def _plans(r: Mapping[str, Any]) -> list[Block]:
     for p in r["plans"]:
         c = p["check"]
         line = f"#{p['id']}: {c.get('reason', '')}; after {c.get('commitments', 0)} other pending plan(s)"
+        if c.get("limiting_tank"):
+            line += f"; limiting tank {c['limiting_tank']} (runs out first)"
         if c.get("probability") is not None:
             line += f"; {prob_text(c['probability'], c.get('samples'), prefix='probability ')}"
         if p.get("overdue"):

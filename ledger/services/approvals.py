@@ -19,7 +19,7 @@ if TYPE_CHECKING:
     from ..core import montecarlo as mc
 
 KEPT = ("engine", "dv_m_s", "verdict", "probability", "probability_se", "confidence", "dv_free_after_m_s",
-        "dv_free_after_low_m_s", "samples", "seed", "limiting_tank", "reason")
+        "dv_free_after_low_m_s", "samples", "seed", "limiting_tank", "least_margin_tank", "reason")
 
 
 def decide(ledger: Ledger, kind: str, plan: Any, by: str | None, note: str | None = None,
@@ -42,7 +42,12 @@ def decide(ledger: Ledger, kind: str, plan: Any, by: str | None, note: str | Non
     check = uncertainty.plan_check(snap, s, seq, confidence)
     data = {"plan": seq, "check": {k: check[k] for k in KEPT} | {"commitments": len(check["commitments"])},
             "head": {"seq": snap.head[0], "hash": snap.head[1]}}
+    before = snap.resolved.decisions.get(seq)
     stored, warnings = ledger.record(kind, data, by=by, note=note, snap=snap)
+    if before is not None and before.kind == kind:
+        word = "approved" if kind == APPROVE else "rejected"
+        warnings = [f"plan {seq} was already {word} (entry {before.seq} by {before.by}); this {kind} is recorded "
+                    "as well and is now the one that stands", *warnings]
     if kind == APPROVE and check["verdict"] != "feasible":
         warnings = [f"plan {seq} approved although its check is {check['verdict']} "
                     f"({prob_text(check['probability'], check.get('samples'))} at confidence {confidence:g})", *warnings]

@@ -235,9 +235,34 @@ def craft_from_document(doc: Any, src: str) -> Craft:
     for i, node in enumerate(routine_nodes):
         f = _Fields(src, node, f"operations.routine[{i}]")
         routine.append(Routine(engine_ref(f), f.qty("dv_per_year", "speed")))
-    return Craft(name=name, dry_mass_kg=dry_mass,
+    extra = {}
+    if ops.get("plan_dv_tolerance") is not None:
+        extra["plan_dv_tolerance"] = _plan_dv_tolerance(src, ops["plan_dv_tolerance"])
+    return Craft(name=name, dry_mass_kg=dry_mass, extra=extra,
                  tanks=tuple(tanks), engines=tuple(engines), reserves=tuple(reserves), routine=tuple(routine),
                  dry_mass_sigma_kg=head.qty("dry_mass_sigma", "mass", required=False))
+
+
+def _plan_dv_tolerance(src: str, node: Any) -> dict[str, float]:
+    """operations.plan_dv_tolerance: {relative: 0.1 or '10 %', absolute: '0.05 m/s'}: how far an executed
+    burn's delta-v may stray from its plan's before a warning (services.execution)."""
+    where = "operations.plan_dv_tolerance"
+    if not isinstance(node, Mapping):
+        raise InputError(f"{src}: {where}: expected a mapping with 'relative' and/or 'absolute'")
+    out = {}
+    rel = node.get("relative")
+    if rel is not None:
+        text = str(rel).strip()
+        try:
+            value = float(text[:-1]) / 100.0 if text.endswith("%") else float(text)
+        except ValueError:
+            raise InputError(f"{src}: {where}.relative: expected a fraction such as 0.1 or '10 %', got {rel!r}") from None
+        if not (0 <= value < 10) or value != value:
+            raise InputError(f"{src}: {where}.relative: expected a fraction from 0, got {rel!r}")
+        out["relative"] = value
+    if node.get("absolute") is not None:
+        out["absolute_m_s"] = _Fields(src, node, where).qty("absolute", "speed")
+    return out
 
 
 def load_craft(path: str) -> Craft:

@@ -12,15 +12,13 @@ from typing import Any, Mapping
 from ..core.entries import HANDOVER, Entry
 from ..errors import InputError, LedgerError
 from . import views
+from .execution import dv_tolerance
 from .forecast import forecast
 from .handover_rows import entry_rows
 from .ledger import Ledger, Snapshot
 from .records import clean_text
 from .timefmt import iso, now as clock, parse_time
 
-RATIO_TOLERANCE = 0.05
-"""Achieved/planned outside 1 ± 5% is flagged: the margin usually held on accurately computed manoeuvres
-(ESA SRE-PA/2011.097, via a secondary summary; docs/sources.md §3)."""
 SINCE_LAST = "last"
 
 
@@ -79,7 +77,7 @@ def _plans(snap: Snapshot, status: Mapping[str, Any], end: float) -> tuple[list[
         row = dict(p)
         res = views.check(snap, p["engine"], float(p["dv_m_s"]), exclude_plan=int(p["id"]))
         row["check"] = {k: res.get(k) for k in ("verdict", "reason", "propellant_kg", "dv_free_after_m_s",
-                                                "limiting_tank", "probability") if k in res}
+                                                "limiting_tank", "least_margin_tank", "probability") if k in res}
         row["check"]["commitments"] = len(res.get("commitments", []))
         row["overdue"] = parse_time(p["at"], "plan time") < end
         if row["overdue"]:
@@ -126,8 +124,11 @@ def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, sinc
     burns, others = entry_rows(snap, win["start_t"], end, skip=prev)
     plans, plan_warnings = _plans(snap, status, end)
     warnings = list(status["warnings"]) + plan_warnings
+    rel, abs_m_s = dv_tolerance(snap.craft)  # the same tolerance the burn's own warning used
     for b in burns:
-        if b["ratio"] is not None and abs(b["ratio"] - 1.0) > RATIO_TOLERANCE:
+        planned, done = b["planned_dv_m_s"], b["achieved_dv_m_s"]
+        if (b["ratio"] is not None and planned is not None and done is not None
+                and abs(done - planned) > max(rel * abs(planned), abs_m_s)):
             warnings.append(f"burn #{b['id']} achieved {100 * b['ratio']:.1f}% of plan #{b['plan']}")
     gauge = [{"tank": tid, "summary": _flat(t["gauge"]), "data": t["gauge"]}
              for tid, t in status["tanks"].items() if t.get("gauge")]

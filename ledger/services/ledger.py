@@ -75,6 +75,9 @@ def _warnings(craft: Craft, events: Sequence[Entry], rep: Replay, state: cap.Sta
         elif state.remaining_kg[t] < residuals[t] - 1e-9:
             out.append(f"tank {tank_id}: drawn into its residual (unusable) propellant:"
                        f" {state.remaining_kg[t]:.3f} kg left of {residuals[t]:.3f} kg residual")
+    for ev in events:
+        for w in ev.data.get("plan_warnings") or () if ev.kind == BURN else ():
+            out.append(f"burn #{ev.seq} (plan #{ev.data.get('plan')}): {w}")
     for e in engines:
         if not e.reserves_met:
             out.append(f"engine {e.engine}: reserves can no longer be met (dv free 0); limiting tank {e.limiting_tank}")
@@ -159,6 +162,12 @@ class Ledger:
             snap = self._writable(snap)
             payload = validate_data(snap.craft, snap.resolved, kind, data)
             t = now() if at is None else at
+            if kind == BURN and payload.get("plan") is not None:
+                from .execution import plan_warnings  # noqa: PLC0415
+
+                found = plan_warnings(snap, payload, t, now())
+                if found:
+                    payload["plan_warnings"] = found
             rec = _readable(make_record(kind, t, now(), by, note, payload))
             stored = self.file.append(rec)
         return stored, self._new_warnings(snap, self.snapshot())

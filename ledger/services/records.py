@@ -99,7 +99,9 @@ def plan_ref(resolved: Resolved, ref: Any, what: str) -> int:
     return _plan_ref(resolved, ref, what)
 
 
-def _plan_ref(resolved: Resolved, ref: Any, what: str) -> int:
+def _plan_ref(resolved: Resolved, ref: Any, what: str, executing: bool = False) -> int:
+    """``executing``: a burn names the plan; an executed or withdrawn plan is then allowed (the burn
+    happened and is recorded; ``services.execution`` warns)."""
     try:
         seq = int(str(ref).lstrip("#"))
     except ValueError:
@@ -107,6 +109,8 @@ def _plan_ref(resolved: Resolved, ref: Any, what: str) -> int:
     plan = resolved.effective.get(seq)
     if plan is None or plan.kind != PLAN:
         raise InputError(f"--plan: entry {seq} is not a planned burn")
+    if executing:
+        return seq
     if seq in resolved.executed_by:
         raise InputError(f"--plan: plan {seq} was already executed by entry {resolved.executed_by[seq]}")
     if seq in resolved.withdrawn:
@@ -149,7 +153,7 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
         out: dict[str, Any] = {"engine": _engine(craft, data.get("engine"))}
         out.update(_one_amount(data, AMOUNT_FIELDS, "burn"))
         if data.get("plan") is not None:
-            out["plan"] = _plan_ref(resolved, data["plan"], "an executed burn")
+            out["plan"] = _plan_ref(resolved, data["plan"], "an executed burn", executing=True)
         return _sigma(out, data)
     if kind == PLAN:
         out = {"engine": _engine(craft, data.get("engine"))}

@@ -96,7 +96,8 @@ def check_from(snap: Snapshot, s: mc.Samples, engine: str, dv: float, confidence
         "propellant_kg": res.propellant_kg, "propellant_by_tank_kg": res.propellant_by_tank,
         "dv_free_after_m_s": res.dv_free_after_m_s,
         "dv_free_after_low_m_s": sampled.low_bound(sc.dv_free_after, confidence),
-        "limiting_tank": res.limiting_tank, "margin_after_reserves_kg": res.margin_by_tank,
+        "limiting_tank": res.limiting_tank,
+        "least_margin_tank": res.least_margin_tank, "margin_after_reserves_kg": res.margin_by_tank,
         "commitments": [{"engine": e, "dv_m_s": d} for e, d in res.commitments],
         "samples": len(s), "seed": s.seed, "reason": res.reason, "caution": CAUTION,
     }

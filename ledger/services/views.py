@@ -85,7 +85,7 @@ def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
         "verdict": "feasible" if res.feasible else "infeasible",
         "propellant_kg": res.propellant_kg, "propellant_by_tank_kg": res.propellant_by_tank,
         "dv_free_after_m_s": res.dv_free_after_m_s, "limiting_tank": res.limiting_tank,
-        "margin_after_reserves_kg": res.margin_by_tank,
+        "least_margin_tank": res.least_margin_tank, "margin_after_reserves_kg": res.margin_by_tank,
         "commitments": [{"engine": e, "dv_m_s": d} for e, d in res.commitments],
         "reason": res.reason, "caution": CAUTION,
     }

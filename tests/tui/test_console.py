@@ -44,7 +44,7 @@ def test_check_shows_rocket_equation_figures_and_records_nothing(ledger_path):
             expected = m * (1 - math.exp(-12.0 / (318.0 * G0)))
             assert res["propellant_kg"] == pytest.approx(expected, rel=1e-12)
             assert f"{expected:,.3f} kg" in text
-            assert "FEASIBLE" in text and "dv free after" in text and "tightest tank" in text
+            assert "FEASIBLE" in text and "dv free after" in text and "least margin tank" in text
             # a burn far beyond the tanks: the verdict turns, still nothing is written
             app.screen.query_one("#c-dv", Input).value = "5000 m/s"
             await pilot.pause(0.1)

@@ -53,7 +53,8 @@ def verdict_text(res: dict[str, Any]) -> Text:
     for t, x in res["propellant_by_tank_kg"].items():
         out.append(f"  from {t:<10}    {x:,.3f} kg\n")
     out.append(f"dv free after       {res['dv_free_after_m_s']:,.2f} m/s ({res['engine']})\n")
-    out.append(f"tightest tank       {res['limiting_tank']} (least margin after reserves)\n")
+    out.append(f"limiting tank       {res['limiting_tank'] or '-'} (runs out first)\n")
+    out.append(f"least margin tank   {res['least_margin_tank']} (least margin after reserves)\n")
     out.append("margin after burn and reserves:\n")
     for t, x in res["margin_after_reserves_kg"].items():
         out.append(f"  {t:<10} {x:>12,.3f} kg\n", style="" if x >= 0 else "bold red")

@@ -77,6 +77,15 @@ def rebaseline_lines(d: Mapping[str, Any]) -> list[Line]:
     ]
 
 
+def _tank_lines(c: Mapping[str, Any]) -> list[Line]:
+    """Limiting tank (runs out first) and least margin tank. A check stored before the two were told apart
+    has no ``least_margin_tank``: its ``limiting_tank`` then meant the least margin after reserves."""
+    if "least_margin_tank" not in c:
+        return [("least margin tank", f"{c.get('limiting_tank') or '-'} (least margin after reserves)", "")]
+    return [("limiting tank", f"{c.get('limiting_tank') or '-'} (runs out first)", ""),
+            ("least margin tank", f"{c.get('least_margin_tank') or '-'} (least margin after reserves)", "")]
+
+
 def decision_lines(d: Mapping[str, Any], approval_now: str | None = None) -> list[Line]:
     c = d.get("check") or {}
     head = d.get("head") or {}
@@ -88,7 +97,7 @@ def decision_lines(d: Mapping[str, Any], approval_now: str | None = None) -> lis
                         f"all reserves stay intact (confidence {float(c.get('confidence', 0.0)):g})", ""),
         ("dv free after", f"{float(c.get('dv_free_after_m_s', 0.0)):,.2f} m/s (low "
                           f"{float(c.get('dv_free_after_low_m_s') or 0.0):,.2f})", ""),
-        ("limiting tank", str(c.get("limiting_tank") or "-"), ""),
+        *_tank_lines(c),
         ("plans flown first", str(c.get("commitments", 0)), ""),
         ("samples", f"{c.get('samples', '?')} (seed {c.get('seed', '?')})", "grey70"),
         ("check reason", str(c.get("reason") or ""), "grey70"),

@@ -35,3 +35,15 @@ def test_log_json_carries_everything_stored(ledger):
 def test_verify_json_matches_its_schema(ledger):
     run("--ledger", ledger, "burn", "--engine", "lae", "--dv", "1.5 m/s", check=True)
     _validate(json.loads(run("--ledger", ledger, "verify", "--json", check=True).stdout), schemas.VERIFY)
+
+
+def test_status_and_check_json_match_their_schemas(ledger):
+    """status --json and check --json as docs/json.md describes them, with a pending plan so that its
+    approval state and its check now (verdict_now) are present."""
+    run("--ledger", ledger, "plan", "--engine", "lae", "--dv", "2 m/s", "--at", "2026-03-01T00:00Z", check=True)
+    status = json.loads(run("--ledger", ledger, "status", "--json", "--samples", "2000", check=True).stdout)
+    _validate(status, schemas.STATUS)
+    assert status["pending_plans"][0]["verdict_now"]["samples"] == 2000
+    done = run("--ledger", ledger, "check", "--engine", "lae", "--dv", "1 m/s", "--json", "--samples", "2000")
+    assert done.returncode in (0, 1, 3)  # feasible, infeasible, marginal: all print the same document
+    _validate(json.loads(done.stdout), schemas.CHECK)

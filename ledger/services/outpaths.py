@@ -10,6 +10,7 @@ from __future__ import annotations
 import os
 import tempfile
 
+from ..store.durable import discard
 from ..errors import InputError, StoreError
 
 
@@ -71,10 +72,7 @@ def write_atomic(path: str, text: str, *, force: bool = False) -> str:
         raise StoreError(f"{_q(path)}: could not write the report ({exc.strerror or exc})") from None
     finally:
         if tmp is not None:
-            try:
-                os.unlink(tmp)
-            except OSError:
-                pass
+            discard(tmp)
     try:
         dfd = os.open(folder, os.O_RDONLY)
         try:

@@ -39,6 +39,14 @@ def write_all(fd: int, data: bytes) -> None:
         view = view[n:]
 
 
+def discard(path: str) -> None:
+    """Remove a temporary file left by a failed write; nothing to report if it is already gone."""
+    try:
+        os.unlink(path)
+    except OSError:
+        pass
+
+
 def fsync(fd: int) -> None:
     os.fsync(fd)
 

@@ -17,6 +17,8 @@ import secrets
 import stat
 import tempfile
 
+from .durable import discard
+
 KEY_SUFFIX = ".key"
 KEY_BYTES = 32
 _NOFOLLOW = getattr(os, "O_NOFOLLOW", 0)
@@ -133,10 +135,7 @@ def write_private(path: str, payload: bytes) -> bool:
         return False
     finally:
         if tmp is not None:
-            try:
-                os.unlink(tmp)
-            except OSError:
-                pass
+            discard(tmp)
 
 
 def private_folder(folder: str) -> None:

@@ -77,7 +77,7 @@ def _from_pint(number: float, unit: str, dimension: str, where: str) -> float:
 def _hint(unit: str, dimension: str) -> str:
     """Why a common spelling was not read as meant: a letter that is a temperature only in a temperature field,
     an angle degree given for a temperature, or a pressure that needs telling apart from gauge."""
-    if unit in _TEMPERATURE_LETTER or unit in ("°C", "°F"):
+    if unit in ("C", "F", "°C", "°F"):
         return (f"; '{unit}' is read as a temperature only where one is expected (else coulomb or farad): "
                 "write degC, degF or K")
     if dimension.startswith("temperature") and unit in ("deg", "°", "degree", "degrees"):

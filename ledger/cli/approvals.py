@@ -5,33 +5,34 @@ from ..core.entries import APPROVE, REJECT
 from ..services import approvals, uncertainty
 from ..services.probtext import prob_text
 from .common import console, dump_json, esc, open_ledger, warn
+from .helptext import about
 from .progress import Progress
 
 
 def add_confidence_options(p) -> None:
     p.add_argument("--confidence", type=float, default=uncertainty.DEFAULT_CONFIDENCE,
-                   help="probability for low bounds and verdicts (default %(default)s)")
+                   help="probability for low bounds and verdicts, e.g. 0.99 (default %(default)s)")
     p.add_argument("--samples", type=int, default=uncertainty.DEFAULT_SAMPLES,
-                   help="Monte Carlo samples (default %(default)s)")
+                   help="Monte Carlo samples, e.g. 20000 (default %(default)s)")
     p.add_argument("--seed", type=int, default=uncertainty.DEFAULT_SEED,
-                   help="random seed; the same seed on the same ledger gives the same figures (default %(default)s)")
+                   help="random seed, e.g. 7; the same seed on the same ledger gives the same figures (default %(default)s)")
 
 
 def register(sub) -> None:
-    p = sub.add_parser("approve", help="approve a pending plan; records the check it was based on")
-    p.add_argument("--plan", required=True, help="id of the pending plan")
-    p.add_argument("--by", required=True, help="name of the person approving")
-    p.add_argument("--note", help="free text kept with the approval")
+    p = sub.add_parser("approve", **about("approve a pending plan; records the check it was based on"))
+    p.add_argument("--plan", required=True, help="id of the pending plan, e.g. 12")
+    p.add_argument("--by", required=True, help="name of the person approving, e.g. 'A. Lindqvist'")
+    p.add_argument("--note", help="free text kept with the approval, e.g. 'per FD review 14'")
     add_confidence_options(p)
-    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--json", action="store_true", help="print the result as JSON, e.g. to keep the check")
     p.set_defaults(func=cmd_approve)
 
-    p = sub.add_parser("reject", help="reject a pending plan (it stays pending until withdrawn); --note says why")
-    p.add_argument("--plan", required=True, help="id of the pending plan")
-    p.add_argument("--by", required=True, help="name of the person rejecting")
-    p.add_argument("--note", required=True, help="why the plan is rejected")
+    p = sub.add_parser("reject", **about("reject a pending plan (it stays pending until withdrawn); --note says why"))
+    p.add_argument("--plan", required=True, help="id of the pending plan, e.g. 12")
+    p.add_argument("--by", required=True, help="name of the person rejecting, e.g. 'A. Lindqvist'")
+    p.add_argument("--note", required=True, help="why the plan is rejected, e.g. 'margin below the rule'")
     add_confidence_options(p)
-    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--json", action="store_true", help="print the result as JSON, e.g. to keep the check")
     p.set_defaults(func=cmd_reject)
 
 

@@ -7,16 +7,17 @@ import tempfile
 
 from ..errors import InputError
 from .common import plain
+from .helptext import about
 
 DEFAULT = "geo-comsat"
 
 
 def register(sub) -> None:
-    p = sub.add_parser("demo", help="build a fresh ledger from a bundled scenario and open it")
-    p.add_argument("--scenario", default=DEFAULT, help=f"bundled scenario (default {DEFAULT}); 'list' lists them")
+    p = sub.add_parser("demo", **about("build a fresh ledger from a bundled scenario and open it"))
+    p.add_argument("--scenario", default=DEFAULT, help=f"bundled scenario, e.g. {DEFAULT} (the default); 'list' lists them")
     p.add_argument("--folder", help="keep the demo ledger in this folder, e.g. --folder /tmp/mydemo "
                                     "(default: a temporary folder removed on exit)")
-    p.add_argument("--print", dest="print_only", action="store_true", help="print status and log instead of the console")
+    p.add_argument("--print", dest="print_only", action="store_true", help="print status and log instead of the console, e.g. in a terminal without full-screen support")
     p.set_defaults(func=cmd_demo)
 
 

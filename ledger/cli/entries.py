@@ -4,60 +4,61 @@ from __future__ import annotations
 from ..core.entries import BURN, MASS, PLAN, USE, WITHDRAW
 from ..services.ledger import create, resolve_path
 from .common import add_write_options, console, dump_json, esc, open_ledger, qty, warn, when
+from .helptext import about
 
 
 def register(sub) -> None:
-    p = sub.add_parser("init", help="create a new ledger from a craft file (never overwrites)")
-    p.add_argument("--craft", required=True, help="craft file (YAML)")
-    p.add_argument("--by", help="who creates it")
-    p.add_argument("--json", action="store_true")
+    p = sub.add_parser("init", **about("create a new ledger from a craft file (never overwrites)"))
+    p.add_argument("--craft", required=True, help="craft file (YAML), e.g. craft.yaml")
+    p.add_argument("--by", help="who creates it, e.g. 'R. Okafor'")
+    p.add_argument("--json", action="store_true", help="print the result as JSON, e.g. for a script")
     p.set_defaults(func=cmd_init)
 
-    p = sub.add_parser("burn", help="log an executed burn")
-    p.add_argument("--engine", required=True)
+    p = sub.add_parser("burn", **about("log an executed burn"))
+    p.add_argument("--engine", required=True, help="engine id from the craft file, e.g. lae")
     amount = p.add_mutually_exclusive_group(required=True)
-    amount.add_argument("--dv", help="achieved delta-v, e.g. '1.8 m/s'")
-    amount.add_argument("--duration", help="burn duration, e.g. '95 s' (propellant = thrust/(Isp g0) x duration)")
-    amount.add_argument("--propellant", help="propellant used, e.g. '2.4 kg'")
-    p.add_argument("--plan", help="id of the pending plan this burn executes")
+    amount.add_argument("--dv", help="achieved delta-v, e.g. '1.8 m/s' (a bare number is m/s)")
+    amount.add_argument("--duration", help="burn duration, e.g. '95 s' or '1.5 min' (propellant = thrust/(Isp g0) x duration)")
+    amount.add_argument("--propellant", help="propellant used, e.g. '2.4 kg' or '5.3 lbm'")
+    p.add_argument("--plan", help="id of the pending plan this burn executes, e.g. 12")
     add_sigma(p)
     add_write_options(p)
     p.set_defaults(func=cmd_burn)
 
-    p = sub.add_parser("plan", help="log a planned burn (pending until executed or withdrawn)")
-    p.add_argument("--engine", required=True)
-    p.add_argument("--dv", required=True)
+    p = sub.add_parser("plan", **about("log a planned burn (pending until executed or withdrawn)"))
+    p.add_argument("--engine", required=True, help="engine id from the craft file, e.g. lae")
+    p.add_argument("--dv", required=True, help="planned delta-v, e.g. '2.5 m/s' (a bare number is m/s)")
     add_write_options(p)
     p.set_defaults(func=cmd_plan)
 
-    p = sub.add_parser("mass", help="log a non-propulsive mass change (deployment, separation)")
-    p.add_argument("--delta", required=True, help="signed, e.g. '-35 kg'", type=str)
-    add_sigma(p)
+    p = sub.add_parser("mass", **about("log a non-propulsive mass change (deployment, separation)"))
+    p.add_argument("--delta", required=True, help="signed mass change, e.g. '-35 kg' (a bare number is kg)", type=str)
+    add_sigma(p, "'0.5 kg'")
     add_write_options(p)
     p.set_defaults(func=cmd_mass)
 
-    p = sub.add_parser("use", help="log propellant used without delta-v (attitude control, off-loading, venting)")
-    p.add_argument("--engine", required=True)
+    p = sub.add_parser("use", **about("log propellant used without delta-v (attitude control, off-loading, venting)"))
+    p.add_argument("--engine", required=True, help="engine id from the craft file, e.g. rcs")
     amount = p.add_mutually_exclusive_group(required=True)
-    amount.add_argument("--duration")
-    amount.add_argument("--propellant")
-    add_sigma(p)
+    amount.add_argument("--duration", help="total thruster on-time, e.g. '40 s' or '3 min'")
+    amount.add_argument("--propellant", help="propellant used, e.g. '0.2 kg'")
+    add_sigma(p, "'2 s' with --duration")
     add_write_options(p)
     p.set_defaults(func=cmd_use)
 
-    p = sub.add_parser("withdraw", help="withdraw a pending plan")
-    p.add_argument("--plan", required=True)
+    p = sub.add_parser("withdraw", **about("withdraw a pending plan"))
+    p.add_argument("--plan", required=True, help="id of the pending plan, e.g. 12")
     add_write_options(p)
     p.set_defaults(func=cmd_withdraw)
 
-    p = sub.add_parser("correct", help="supersede an earlier entry with corrected fields (the original stays)")
-    p.add_argument("--entry", required=True, help="id of the entry to correct")
-    p.add_argument("--reason", help="why the entry was wrong (required)")
-    p.add_argument("--engine")
-    p.add_argument("--dv")
-    p.add_argument("--duration")
-    p.add_argument("--propellant")
-    p.add_argument("--delta")
+    p = sub.add_parser("correct", **about("supersede an earlier entry with corrected fields (the original stays)"))
+    p.add_argument("--entry", required=True, help="id of the entry to correct, e.g. 7")
+    p.add_argument("--reason", help="why the entry was wrong (required), e.g. 'telemetry recount'")
+    p.add_argument("--engine", help="corrected engine id, e.g. rcs")
+    p.add_argument("--dv", help="corrected delta-v, e.g. '1.75 m/s'")
+    p.add_argument("--duration", help="corrected duration, e.g. '94 s'")
+    p.add_argument("--propellant", help="corrected propellant, e.g. '2.35 kg'")
+    p.add_argument("--delta", help="corrected signed mass change, e.g. '-34.2 kg'")
     add_sigma(p)
     add_write_options(p)
     p.set_defaults(func=cmd_correct)
@@ -66,9 +67,9 @@ def register(sub) -> None:
 DIMENSION = {"dv": "speed", "duration": "time", "propellant": "mass", "delta": "mass"}
 
 
-def add_sigma(p) -> None:
+def add_sigma(p, example: str = "'0.02 m/s' with --dv") -> None:
     p.add_argument("--sigma", help="one standard deviation of the amount, in the amount's dimension "
-                                   "(e.g. '0.02 m/s' with --dv); default: see docs/uncertainty.md")
+                                   f"(e.g. {example}); default: see docs/uncertainty.md")
 
 
 def sigma(args, field: str | None) -> float | None:

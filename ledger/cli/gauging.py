@@ -6,33 +6,36 @@ Exit status of ``gauge``: 0 when the reading agrees with the bookkeeping, 1 when
 from __future__ import annotations
 
 from .common import add_json, console, dump_json, esc, open_ledger, qty, warn, when
+from .helptext import about
 
 EXIT_FLAGGED = 1
 
 
 def register(sub) -> None:
-    p = sub.add_parser("gauge", help="propellant in a tank from its pressure and temperature, against the bookkeeping")
-    p.add_argument("--tank", required=True, help="tank id from the craft file")
-    p.add_argument("--pressure", required=True, help="tank pressure as read, e.g. '7.1 bar' or '6.2 MPa'")
-    p.add_argument("--temperature", required=True, help="tank temperature, e.g. '20 degC' or '293.15 K'")
-    p.add_argument("--pressure-sigma", help="1-sigma of the pressure reading (default 0.5 %% of an assumed full "
+    p = sub.add_parser("gauge", **about("propellant in a tank from its pressure and temperature, against the bookkeeping"))
+    p.add_argument("--tank", required=True, help="tank id from the craft file, e.g. hz")
+    p.add_argument("--pressure", required=True, help="tank pressure as read, e.g. '7.1 bar', '6.2 MPa' or '100 psia' (psig is read as psia: a "
+                                                      "gauge pressure needs the ambient added, about zero in orbit; "
+                                                      "a bare number is Pa)")
+    p.add_argument("--temperature", required=True, help="tank temperature, e.g. '20 degC', '20 C', '68 degF' or '293.15 K' (a bare number is K)")
+    p.add_argument("--pressure-sigma", help="1-sigma of the pressure reading, e.g. '0.1 bar' (default 0.5 %% of an assumed full "
                                             "scale: 15 kPa for liquid tanks, 100 kPa for gas-stored tanks)")
-    p.add_argument("--temperature-sigma", help="1-sigma of the temperature reading (default 0.5 K)")
-    p.add_argument("--at", help="time of the reading (ISO 8601; UTC unless an offset is given; default now)")
-    p.add_argument("--by", help="who records it (default: the operating-system user)")
-    p.add_argument("--note", help="free text kept with the entry")
-    p.add_argument("--dry-run", action="store_true", help="compute and show, record nothing")
+    p.add_argument("--temperature-sigma", help="1-sigma of the temperature reading, e.g. '0.5 K' or '1 degC' (default 0.5 K)")
+    p.add_argument("--at", help="time of the reading (ISO 8601; UTC unless an offset is given; default now), e.g. 2026-05-04T13:20Z")
+    p.add_argument("--by", help="who records it, e.g. 'P. Ilves' (default: the operating-system user)")
+    p.add_argument("--note", help="free text kept with the entry, e.g. 'after the heater cycle'")
+    p.add_argument("--dry-run", action="store_true", help="compute and show, record nothing, e.g. to try a reading first")
     add_json(p)
     p.set_defaults(func=cmd_gauge)
 
-    p = sub.add_parser("rebaseline", help="adopt a gauge reading combined with the bookkeeping as the tank's value")
-    p.add_argument("--tank", required=True, help="tank id (must be the tank of the gauge reading)")
-    p.add_argument("--gauge", required=True, help="id of the gauge entry to adopt")
-    p.add_argument("--by", required=True, help="the person adopting the value (required)")
-    p.add_argument("--reason", help="why the value is adopted")
+    p = sub.add_parser("rebaseline", **about("adopt a gauge reading combined with the bookkeeping as the tank's value"))
+    p.add_argument("--tank", required=True, help="tank id (must be the tank of the gauge reading), e.g. hz")
+    p.add_argument("--gauge", required=True, help="id of the gauge entry to adopt, e.g. 31")
+    p.add_argument("--by", required=True, help="the person adopting the value (required), e.g. 'P. Ilves'")
+    p.add_argument("--reason", help="why the value is adopted, e.g. 'two readings agree'")
     p.add_argument("--force", action="store_true",
-                   help="adopt even when the reading differs from the bookkeeping beyond 3 sigma")
-    p.add_argument("--note", help="free text kept with the entry")
+                   help="adopt even when the reading differs from the bookkeeping beyond 3 sigma, e.g. after a confirmed leak")
+    p.add_argument("--note", help="free text kept with the entry, e.g. 'ref. anomaly report 3'")
     add_json(p)
     p.set_defaults(func=cmd_rebaseline)
 

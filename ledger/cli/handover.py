@@ -11,23 +11,25 @@ import sys
 from ..errors import InputError, StoreError
 from ..services import handover
 from .common import open_ledger, plain, warn
+from .helptext import about
 
 FORMATS = ("text", "md", "html", "json")
 EXIT_BACKUP_FAILED = 1
 
 
 def register(sub) -> None:
-    p = sub.add_parser("handover", help="shift handover report (records a handover entry and a backup)")
-    p.add_argument("--from", dest="from_name", required=True, metavar="NAME", help="outgoing engineer")
-    p.add_argument("--to", dest="to_name", required=True, metavar="NAME", help="incoming engineer")
+    p = sub.add_parser("handover", **about("shift handover report (records a handover entry and a backup)"))
+    p.add_argument("--from", dest="from_name", required=True, metavar="NAME", help="outgoing engineer, e.g. 'J. Moreau'")
+    p.add_argument("--to", dest="to_name", required=True, metavar="NAME", help="incoming engineer, e.g. 'K. Tanaka'")
     p.add_argument("--since", metavar="TIME|last",
-                   help="window start: ISO 8601 time, or 'last' for the previous handover (the default)")
-    p.add_argument("--format", choices=FORMATS, default="text", help="text (80 columns), md, html or json")
-    p.add_argument("--out", metavar="FILE", help="write the report to FILE (default: standard output)")
-    p.add_argument("--force", action="store_true", help="replace FILE if it exists")
+                   help="window start: ISO 8601 time, e.g. 2026-05-04T06:00Z, or 'last' for the previous handover "
+                        "(the default)")
+    p.add_argument("--format", choices=FORMATS, default="text", help="text (80 columns), md, html or json, e.g. md")
+    p.add_argument("--out", metavar="FILE", help="write the report to FILE, e.g. shift-0504.md (default: standard output)")
+    p.add_argument("--force", action="store_true", help="replace the --out file if it exists, e.g. to re-issue a report")
     p.add_argument("--no-record", action="store_true",
-                   help="preview only: append no handover entry and write no backup")
-    p.add_argument("--note", help="free text kept with the handover entry")
+                   help="preview only: append no handover entry and write no backup, e.g. before the shift ends")
+    p.add_argument("--note", help="free text kept with the handover entry, e.g. 'quiet shift'")
     p.set_defaults(func=cmd_handover)
 
 

@@ -10,19 +10,20 @@ from ..store.chain import verify_chain
 from ..store.head import read_heads
 from ..store.ledgerfile import META, head_of, ordered
 from .common import add_json, console, dump_json, esc, open_ledger, plain, warn
+from .helptext import about
 
 
 def register(sub) -> None:
-    p = sub.add_parser("backup", help="write a checked, timestamped copy of the ledger beside it and record its head")
-    p.add_argument("--keep", help=f"how many backups to keep (else ${backups.KEEP_ENV}, else {backups.DEFAULT_KEEP})")
-    p.add_argument("--list", dest="list_only", action="store_true", help="list the backups, newest first")
+    p = sub.add_parser("backup", **about("write a checked, timestamped copy of the ledger beside it and record its head"))
+    p.add_argument("--keep", help=f"how many backups to keep, e.g. 30 (else ${backups.KEEP_ENV}, else {backups.DEFAULT_KEEP})")
+    p.add_argument("--list", dest="list_only", action="store_true", help="list the backups, newest first, e.g. to pick one to restore")
     add_json(p)
     p.set_defaults(func=cmd_backup)
 
-    p = sub.add_parser("restore", help="put back the newest good backup (the file it replaces is kept aside)")
-    p.add_argument("--from", dest="source", metavar="FILE", help="the backup to restore (default: the newest good one)")
+    p = sub.add_parser("restore", **about("put back the newest good backup (the file it replaces is kept aside)"))
+    p.add_argument("--from", dest="source", metavar="FILE", help="the backup to restore, e.g. a path the backup listing shows (default: the newest good one)")
     p.add_argument("--force", action="store_true",
-                   help="restore even over an intact ledger, or a backup of a different ledger")
+                   help="restore even over an intact ledger, or a backup of a different ledger, e.g. to roll back a mistake")
     add_json(p)
     p.set_defaults(func=cmd_restore)
 

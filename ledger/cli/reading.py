@@ -7,6 +7,7 @@ from ..services import uncertainty, views
 from ..services.probtext import prob_text
 from .approvals import add_confidence_options
 from .common import add_json, console, dump_json, esc, open_ledger, qty
+from .helptext import about
 from .progress import Progress
 
 EXIT_INFEASIBLE = 1
@@ -15,25 +16,26 @@ EXIT = {"feasible": 0, "marginal": EXIT_MARGINAL, "infeasible": EXIT_INFEASIBLE}
 
 
 def register(sub) -> None:
-    p = sub.add_parser("status", help="propellant per tank, delta-v per engine, plans and warnings now")
+    p = sub.add_parser("status", **about("propellant per tank, delta-v per engine, plans and warnings now"))
     add_confidence_options(p)
     add_json(p)
     p.set_defaults(func=cmd_status)
 
-    p = sub.add_parser("check", help="check a proposed burn against the capability left (after pending plans)")
-    p.add_argument("--engine", required=True)
-    p.add_argument("--dv", required=True)
-    p.add_argument("--approved-only", action="store_true", help="count only approved pending plans as commitments")
+    p = sub.add_parser("check", **about("check a proposed burn against the capability left (after pending plans)"))
+    p.add_argument("--engine", required=True, help="engine id from the craft file, e.g. lae")
+    p.add_argument("--dv", required=True, help="proposed delta-v, e.g. '3.2 m/s' (a bare number is m/s)")
+    p.add_argument("--approved-only", action="store_true",
+                   help="count only approved pending plans as commitments, e.g. to see what is committed")
     add_confidence_options(p)
     add_json(p)
     p.set_defaults(func=cmd_check)
 
-    p = sub.add_parser("log", help="the entries in replay order with mass after and propellant per tank")
-    p.add_argument("--last", type=int, help="only the last N rows")
+    p = sub.add_parser("log", **about("the entries in replay order with mass after and propellant per tank"))
+    p.add_argument("--last", type=int, help="only the last N rows, e.g. 20")
     add_json(p)
     p.set_defaults(func=cmd_log)
 
-    p = sub.add_parser("verify", help="recompute the hash chain and check the recorded head; exit 1 on any break")
+    p = sub.add_parser("verify", **about("recompute the hash chain and check the recorded head; exit 1 on any break"))
     add_json(p)
     p.set_defaults(func=cmd_verify)
 

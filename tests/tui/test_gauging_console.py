@@ -75,7 +75,7 @@ def test_gauge_previews_then_records_exactly_one_reading(ledger_path):
 
 
 @pytest.mark.parametrize("pressure,temperature,tank,expect", [
-    ("20.5", "21 degC", None, "add a unit"),              # a bare number is never taken as pascals
+    ("20.5 psx", "21 degC", None, "unknown unit"),        # (a bare number is pascals: tests/tui/test_bare_numbers.py)
     ("20.5 bar", "", None, "required"),
     ("20.5 m/s", "21 degC", None, "pressure"),            # wrong dimension
     ("20.5 bar", "21 degC", "ox", "no `volume`"),         # a regulated tank cannot be gauged by PVT

@@ -1,7 +1,9 @@
 """Parsing what is typed into a form field: SI values or one clear message, never an exception.
 
-Amounts carry their meaning in their unit: '12 m/s' is a delta-v, '3 min' a duration, '0.2 kg'
-propellant, so one field serves all three and a bare number is refused rather than guessed.
+One rule for bare numbers, the command line's: a bare number is in the base unit of the quantity the
+field holds (kg, s, N, deg, m/s, Pa, K), so '3' in a delta-v field is 3 m/s and '689476' in a pressure
+field is 689476 Pa. A field that holds one of several quantities ('12 m/s' is a delta-v, '3 min' a
+duration, '0.2 kg' propellant) needs the unit to say which: there a bare number is refused, not guessed.
 """
 from __future__ import annotations
 
@@ -25,8 +27,8 @@ def amount(text: str, allowed=("dv", "duration", "propellant"), required: bool =
     hint = ", ".join(f"{AMOUNT_HINT[k]} for {k}" for k in allowed)
     if not text:
         return None, (f"required: a number with a unit ({hint})" if required else None)
-    if _BARE.match(text):
-        return None, f"add a unit ({hint})"
+    if _BARE.match(text) and len(allowed) > 1:
+        return None, f"add a unit: a bare number here could be any of {hint}"
     last = None
     for key in allowed:
         try:
@@ -43,17 +45,15 @@ def amount(text: str, allowed=("dv", "duration", "propellant"), required: bool =
 
 def quantity(text: str, dimension: str, where: str, *, signed: bool = False, required: bool = True,
              unit_hint: str = "") -> Parsed:
-    """SI value of a quantity; with ``unit_hint`` a bare number is refused (a pressure typed as '7.1'
-    would otherwise be read as 7.1 Pa)."""
+    """SI value of a quantity; a bare number is in the base unit, as on the command line. ``unit_hint``
+    (an example such as 'e.g. 7.1 bar') is added to an error message."""
     text = (text or "").strip()
     if not text:
         return None, ("required" if required else None)
-    if unit_hint and _BARE.match(text):
-        return None, f"add a unit ({unit_hint})"
     try:
         return parse_quantity(text, dimension, where, signed=signed), None
     except InputError as exc:
-        return None, str(exc)
+        return None, str(exc) + (f" ({unit_hint})" if unit_hint else "")
 
 
 def when(text: str, required: bool = False) -> Parsed:

@@ -12,14 +12,14 @@ from ..units import parse_quantity
 
 
 def add_write_options(p) -> None:
-    p.add_argument("--at", help="when it happened or is planned (ISO 8601; UTC unless an offset is given; default now)")
-    p.add_argument("--by", help="who records it (default: the operating-system user)")
-    p.add_argument("--note", help="free text kept with the entry")
-    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--at", help="when it happened or is planned (ISO 8601; UTC unless an offset is given; default now), e.g. 2026-05-04T13:20Z")
+    p.add_argument("--by", help="who records it, e.g. 'R. Okafor' (default: the operating-system user)")
+    p.add_argument("--note", help="free text kept with the entry, e.g. 'per flight-dynamics request 42'")
+    p.add_argument("--json", action="store_true", help="print the result as JSON, e.g. for a script or jq")
 
 
 def add_json(p) -> None:
-    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--json", action="store_true", help="print the result as JSON, e.g. for a script or jq")
 
 
 def qty(value: str | None, dimension: str, option: str, *, signed: bool = False) -> float | None:

@@ -14,7 +14,6 @@ from tests.cli.conftest import run
 OPTION = re.compile(r"(?<![\w-])--[a-z][a-z0-9-]*")
 # Options whose help lives in ledger/cli/common.py (another branch owns it): their examples are
 # suggested in the units branch's report; strict, so this list must shrink once they land.
-SHARED_HELP = {"--at", "--by", "--note", "--json"}
 
 
 def commands() -> dict[str, argparse.ArgumentParser]:
@@ -34,25 +33,6 @@ def options() -> list[tuple[str, argparse.Action]]:
             if a.option_strings and not isinstance(a, argparse._HelpAction)]
 
 
-def shared_help() -> set[tuple[str, str]]:
-    """(option, help) pairs that ledger/cli/common.py's helpers add, whichever command they land on."""
-    from ledger.cli import common  # noqa: PLC0415
-
-    pairs = set()
-    for helper in (common.add_write_options, common.add_json):
-        probe = argparse.ArgumentParser()
-        helper(probe)
-        pairs |= {(a.option_strings[-1], a.help or "") for a in probe._actions if a.option_strings[-1] in SHARED_HELP}
-    return pairs
-
-
-SHARED = shared_help()
-
-
-def owned_by_common(name: str, action: argparse.Action) -> bool:
-    return (action.option_strings[-1], action.help or "") in SHARED
-
-
 def ids(pairs):
     return [f"{name or 'propledger'} {a.option_strings[-1]}" for name, a in pairs]
 
@@ -69,9 +49,7 @@ def test_every_command_has_a_one_line_description():
 OPTS = options()
 
 
-@pytest.mark.parametrize("name,action", [
-    pytest.param(n, a, marks=pytest.mark.xfail(strict=True, reason="help text in ledger/cli/common.py"))
-    if owned_by_common(n, a) else (n, a) for n, a in OPTS], ids=ids(OPTS))
+@pytest.mark.parametrize("name,action", OPTS, ids=ids(OPTS))
 def test_every_option_has_help_with_an_example(name, action):
     text = action.help or ""
     assert text.strip() and text != argparse.SUPPRESS, "no help text"

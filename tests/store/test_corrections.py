@@ -27,14 +27,24 @@ def _unchanged(path, fn):
     assert snapshot_bytes(path) == before
 
 
-def test_withdrawn_plan_is_neither_pending_nor_replayed_nor_executable(new_ledger):
+def test_a_burn_on_a_withdrawn_plan_is_recorded_with_a_warning(new_ledger):
+    """A burn that happened is never refused (issue 11 point 3): executing a withdrawn plan is stored, and
+    the entry carries the warning that the plan was withdrawn."""
+    led = Ledger(new_ledger)
+    plan, _ = led.record("plan", {"engine": "lae", "dv": 5.0}, at=T0 + 86400)
+    led.record("withdraw", {"plan": plan["seq"]})
+    burn, _ = led.record("burn", {"engine": "lae", "dv": 5.0, "plan": plan["seq"]}, at=T0 + 86400)
+    assert any("withdrawn" in w for w in burn["data"]["plan_warnings"])
+    assert len(led.snapshot().resolved.events) == 1
+
+
+def test_withdrawn_plan_is_neither_pending_nor_replayed(new_ledger):
     led = Ledger(new_ledger)
     plan, _ = led.record("plan", {"engine": "lae", "dv": 5.0}, at=T0 + 86400)
     led.record("withdraw", {"plan": plan["seq"]})
     snap = led.snapshot()
     assert snap.resolved.pending == () and plan["seq"] in snap.resolved.withdrawn
     assert snap.state.mass_kg == M0 and len(snap.resolved.events) == 0
-    _unchanged(new_ledger, lambda: led.record("burn", {"engine": "lae", "dv": 5.0, "plan": plan["seq"]}))
 
     # correcting the withdrawn plan keeps it withdrawn; the withdrawal itself takes only --at / --note
     led.correct(plan["seq"], {"dv": 6.0}, reason="planned value was mistyped")

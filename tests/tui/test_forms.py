@@ -160,8 +160,9 @@ def test_correct_form_prefills_selected_entry_and_needs_a_reason(ledger_path):
     assert count(ledger_path) == 16
 
 
-def test_service_refusal_lands_in_the_form(ledger_path):
-    """A burn naming a plan that another process withdrew meanwhile: the service refuses, the form says why."""
+def test_burn_on_a_plan_withdrawn_meanwhile_is_recorded_with_a_warning(ledger_path):
+    """A burn naming a plan that another process withdrew meanwhile: a burn that happened is never refused
+    (issue 11 point 3); it is recorded and carries the warning that the plan was withdrawn."""
     async def go():
         app = make_app(ledger_path)
         async with app.run_test(size=(100, 40)) as pilot:
@@ -172,11 +173,12 @@ def test_service_refusal_lands_in_the_form(ledger_path):
             await type_text(pilot, "1 m/s") if not screen.query_one("#f-amount").value else None
             await pilot.press("ctrl+s")
             await pilot.pause(0.2)
-            assert app.screen is screen
-            assert "withdrawn" in str(screen.query_one("#form-error", Static).render())
+            assert app.screen is not screen
 
     run(go())
-    assert count(ledger_path) == 16  # the other process's withdrawal only
+    assert count(ledger_path) == 17  # the other process's withdrawal and the burn
+    e = last_entry(ledger_path)
+    assert e.kind == "burn" and any("withdrawn" in w for w in e.data["plan_warnings"])
 
 
 def test_escape_cancels_without_writing(ledger_path):

@@ -42,14 +42,17 @@ def _decide(args, kind: str) -> int:
                                                    confidence=args.confidence, samples=args.samples, seed=args.seed,
                                                    progress=progress)
     if args.json:
+        extra = {k: check[k] for k in ("approvals_needed", "approvals_counted", "approvers") if k in check}
         dump_json({"id": stored["seq"], "kind": kind, "plan": stored["data"]["plan"], "hash": stored["hash"],
-                   "check": stored["data"]["check"], "head": stored["data"]["head"], "warnings": warnings})
+                   "check": stored["data"]["check"], "head": stored["data"]["head"], **extra, "warnings": warnings})
         return 0
     word = "approved" if kind == APPROVE else "rejected"
     out = console()
     out.print(f"plan {stored['data']['plan']} {word} by {esc(stored['by'])} (entry {stored['seq']}); check "
               f"{check['verdict']}, reserves intact with {prob_text(check['probability'], check.get('samples'))} "
-              f"(confidence {check['confidence']:g}), dv free after {check['dv_free_after_m_s']:.2f} m/s")
+              f"(confidence {check['confidence']:g}), dv free after {check['dv_free_after_m_s']:.2f} m/s"
+              + (f"; {check['approvals_counted']} of {check['approvals_needed']} approvals ("
+                 f"{esc(', '.join(check['approvers']))})" if kind == APPROVE and "approvals_needed" in check else ""))
     warn(warnings)
     out.print(f"[dim]{esc(check['caution'])}[/]")
     return 0

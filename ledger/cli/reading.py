@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import sys
 
-from ..services import uncertainty, views
+from ..services import approvalrule, uncertainty, views
 from ..services.probtext import prob_text
 from .approvals import add_confidence_options
 from .common import add_json, console, dump_json, esc, open_ledger, qty
@@ -105,7 +105,7 @@ def print_status(data: dict) -> None:
     if data["pending_plans"]:
         out.print("Pending plans: " + "; ".join(
             f"#{p['id']} {esc(p['engine'])} {p['dv_m_s']:.3f} m/s at {p['at']}"
-            + (f" ({p['approval']})" if p.get("approval", "none") != "none" else "") for p in data["pending_plans"]))
+            + (f" ({approvalrule.words(p)})" if p.get("approval", "none") != "none" else "") for p in data["pending_plans"]))
     for line in forecast_lines(data.get("forecast") or {}):
         out.print(line)
     for w in data["warnings"]:

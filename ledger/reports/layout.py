@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from typing import Any, Mapping
+from ..services import approvalrule
 from ..services.probtext import prob_text
 
 NONE = "-"
@@ -154,7 +155,7 @@ def _plans(r: Mapping[str, Any]) -> list[Block]:
     out = [Block("heading", "Pending plans, each checked afresh")]
     if not r["plans"]:
         return out + [Block("para", "No pending plan.")]
-    rows = tuple((f"#{p['id']}", when(p["at"]), p["engine"], num(p["dv_m_s"], 3), (p.get("approval") if p.get("approval") not in (None, "none") else NONE),
+    rows = tuple((f"#{p['id']}", when(p["at"]), p["engine"], num(p["dv_m_s"], 3), (approvalrule.words(p) if p.get("approval") not in (None, "none") else NONE),
                   p["check"].get("verdict", NONE), num(p["check"].get("propellant_kg"), 3),
                   num(p["check"].get("dv_free_after_m_s"))) for p in r["plans"])
     out.append(Block("table", headers=("id", "due UTC", "engine", "dv m/s", "approval", "check", "kg", "free after"),

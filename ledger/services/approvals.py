@@ -10,9 +10,9 @@ from typing import TYPE_CHECKING, Any
 
 from ..core.entries import APPROVE, DECISIONS, REJECT
 from ..errors import InputError
-from . import uncertainty
+from . import approvalrule, uncertainty
 from .ledger import Ledger
-from .records import clean_text, plan_ref
+from .records import clean_text, entry_from_record, plan_ref
 from .probtext import prob_text
 
 if TYPE_CHECKING:
@@ -38,16 +38,32 @@ def decide(ledger: Ledger, kind: str, plan: Any, by: str | None, note: str | Non
     uncertainty.validate(confidence, samples, seed)
     snap = ledger.snapshot()
     seq = plan_ref(snap.resolved, plan, "an approval" if kind == APPROVE else "a rejection")
+    need = approvalrule.needed(snap.craft, snap.resolved.effective[seq])
+    history = approvalrule.by_plan(snap.entries).get(seq, []) if need > 1 else []
+    if kind == APPROVE and need > 1:
+        again = approvalrule.twice(history, str(by), lambda head: uncertainty._changed_since(snap, head))
+        if again is not None:
+            raise InputError(f"approve: plan {seq} is already approved by {approvalrule.approver_name(again)} "
+                             f"(entry {again.seq}) on the ledger as it stands; it needs {need} distinct names, "
+                             "so the next approval must come from someone else")
     s = uncertainty.run(snap, samples, seed, progress)
     check = uncertainty.plan_check(snap, s, seq, confidence)
     data = {"plan": seq, "check": {k: check[k] for k in KEPT} | {"commitments": len(check["commitments"])},
             "head": {"seq": snap.head[0], "hash": snap.head[1]}}
     before = snap.resolved.decisions.get(seq)
     stored, warnings = ledger.record(kind, data, by=by, note=note, snap=snap)
-    if before is not None and before.kind == kind:
+    if before is not None and before.kind == kind and need <= 1:
         word = "approved" if kind == APPROVE else "rejected"
         warnings = [f"plan {seq} was already {word} (entry {before.seq} by {before.by}); this {kind} is recorded "
                     "as well and is now the one that stands", *warnings]
+    if need > 1:
+        mine = [*history, entry_from_record(stored)]
+        checks: dict[float, dict[str, Any]] = {}
+        t = approvalrule.tally(mine, need, lambda a: uncertainty._recheck(snap, s, seq, a, checks)[1])
+        check = dict(check, approvals_needed=need, approvals_counted=t["approvals_counted"], approvers=t["approvers"])
+        if kind == APPROVE and t["approval"] != "approved":
+            warnings = [f"plan {seq} has {approvalrule.words(t)}: the craft's approval rule needs {need} distinct "
+                        "names before it counts as approved", *warnings]
     if kind == APPROVE and check["verdict"] != "feasible":
         warnings = [f"plan {seq} approved although its check is {check['verdict']} "
                     f"({prob_text(check['probability'], check.get('samples'))} at confidence {confidence:g})", *warnings]

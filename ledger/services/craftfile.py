@@ -238,6 +238,8 @@ def craft_from_document(doc: Any, src: str) -> Craft:
     extra = {}
     if ops.get("plan_dv_tolerance") is not None:
         extra["plan_dv_tolerance"] = _plan_dv_tolerance(src, ops["plan_dv_tolerance"])
+    if ops.get("approval") is not None:
+        extra["approval"] = _approval_rule(src, ops["approval"])
     return Craft(name=name, dry_mass_kg=dry_mass, extra=extra,
                  tanks=tuple(tanks), engines=tuple(engines), reserves=tuple(reserves), routine=tuple(routine),
                  dry_mass_sigma_kg=head.qty("dry_mass_sigma", "mass", required=False))
@@ -263,6 +265,27 @@ def _plan_dv_tolerance(src: str, node: Any) -> dict[str, float]:
     if node.get("absolute") is not None:
         out["absolute_m_s"] = _Fields(src, node, where).qty("absolute", "speed")
     return out
+
+
+MAX_APPROVERS = 20
+"""More distinct approvers than any control room has on shift; a bound that catches a typo like 22."""
+
+
+def _approval_rule(src: str, node: Any) -> dict[str, float | int]:
+    """operations.approval: {approvers: 2, above_dv: '5 m/s'}: a plan whose delta-v is above above_dv needs
+    approvals from that many distinct names (services.approvalrule)."""
+    where = "operations.approval"
+    if not isinstance(node, Mapping):
+        raise InputError(f"{src}: {where}: expected a mapping such as {{approvers: 2, above_dv: 5 m/s}}")
+    unknown = sorted(str(k) for k in node if k not in ("approvers", "above_dv"))
+    if unknown:
+        raise InputError(f"{src}: {where}: unknown field {shown(unknown[0])} (expected approvers and above_dv)")
+    n = node.get("approvers")
+    if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= MAX_APPROVERS:
+        raise InputError(f"{src}: {where}.approvers: expected a whole number of people from 1 to {MAX_APPROVERS}, "
+                         f"got {shown(n)}")
+    above = _Fields(src, node, where).qty("above_dv", "speed", 0.0)
+    return {"approvers": n, "above_dv_m_s": above}
 
 
 def load_craft(path: str) -> Craft:

@@ -45,14 +45,34 @@ def achieved_dv(snap: Snapshot, payload: Mapping[str, Any]) -> float | None:
 
 
 def _approval(snap: Snapshot, seq: int) -> str | None:
-    """Why the plan's approval does not stand (rejected, never approved, stale), or None if it does."""
-    from . import uncertainty, views  # noqa: PLC0415
+    """Why the plan's approval does not stand (rejected, never approved, stale, too few distinct approvers under
+    the craft's approval rule), or None if it does."""
+    from . import approvalrule  # noqa: PLC0415
 
     d = snap.resolved.decisions.get(seq)
     if d is None:
         return f"plan #{seq} was never approved"
     if d.kind != APPROVE:
         return f"plan #{seq} was rejected (entry #{d.seq}, by {d.by})"
+    plan = snap.resolved.effective[seq]
+    need = approvalrule.needed(snap.craft, plan)
+    if need <= 1:
+        return _stale(snap, seq, d)
+    t = approvalrule.tally(approvalrule.by_plan(snap.entries).get(seq, []), need, lambda a: _stale(snap, seq, a))
+    if t["approval"] == "approved":
+        return None
+    rule = approvalrule.rule(snap.craft)
+    why = (f"plan #{seq} has {approvalrule.words(dict(t, approval=approvalrule.PARTIAL))} (the craft's approval "
+           f"rule needs {need} distinct names above {float(rule['above_dv_m_s']):g} m/s)")
+    if t["stale_approvers"]:
+        why += "; stale: " + "; ".join(t["stale_approvers"].values())
+    return why
+
+
+def _stale(snap: Snapshot, seq: int, d) -> str | None:
+    """Why approval ``d`` of plan ``seq`` is stale by the nominal check now, or None if it still holds."""
+    from . import uncertainty, views  # noqa: PLC0415
+
     then = dict(d.get("check") or {})
     head = int((d.get("head") or {}).get("seq", d.seq - 1))
     if not uncertainty._changed_since(snap, head):

@@ -77,8 +77,22 @@ def commitments(snap: Snapshot, approved_only: bool = False, exclude: int | None
         decision = snap.resolved.decisions.get(p.seq)
         if approved_only and (decision is None or decision.kind != APPROVE):
             continue
+        if approved_only and not _enough(snap, p):
+            continue
         out.append((str(p.get("engine")), float(p.get("dv"))))
     return out
+
+
+def _enough(snap: Snapshot, plan) -> bool:
+    """Whether the plan has approvals from as many distinct names as the craft's approval rule asks (staleness
+    aside, as for a single approval here)."""
+    from . import approvalrule  # noqa: PLC0415
+
+    need = approvalrule.needed(snap.craft, plan)
+    if need <= 1:
+        return True
+    mine = [e for e in snap.entries if e.kind in DECISIONS and int(e.get("plan")) == plan.seq]
+    return len(approvalrule.current(mine)) >= need
 
 
 def check_from(snap: Snapshot, s: mc.Samples, engine: str, dv: float, confidence: float,
@@ -132,29 +146,60 @@ def _changed_since(snap: Snapshot, head_seq: int) -> bool:
 VERDICT_KEYS = ("verdict", "probability", "confidence", "samples", "reason", "dv_free_after_m_s")
 
 
+def _recheck(snap: Snapshot, s: mc.Samples, seq: int, d, checks: dict[float, dict[str, Any]]
+             ) -> tuple[dict[str, Any] | None, str | None]:
+    """(check now, why stale) of one approval: (None, None) when nothing but decisions came after the head its
+    check saw. ``checks`` caches the plan's check now per confidence (approvals may differ in it)."""
+    if not _changed_since(snap, int((d.get("head") or {}).get("seq", d.seq - 1))):
+        return None, None
+    then = dict(d.get("check") or {})
+    conf = float(then.get("confidence", DEFAULT_CONFIDENCE))
+    if conf not in checks:
+        checks[conf] = plan_check(snap, s, seq, conf)
+    now = checks[conf]
+    moved = abs(now["dv_free_after_m_s"] - float(then.get("dv_free_after_m_s", 0.0)))
+    tolerance = max(STALE_DV_ABS_M_S, STALE_DV_REL * abs(float(then.get("dv_free_after_m_s", 0.0))))
+    if now["verdict"] != then.get("verdict"):
+        return now, f"verdict now {now['verdict']}, was {then.get('verdict')}"
+    if moved > tolerance:
+        return now, f"dv free after moved {moved:.3f} m/s (tolerance {tolerance:.3f})"
+    return now, None
+
+
 def approvals(snap: Snapshot, s: mc.Samples, confidence: float = DEFAULT_CONFIDENCE) -> dict[int, dict[str, Any]]:
-    """Per pending plan: approval approved | rejected | stale | none, with the evidence for the answer, and
-    ``verdict_now``: the plan's check now at ``confidence`` (the other pending plans flown first)."""
+    """Per pending plan: approval approved | rejected | stale | none (| partial under the craft's two-person
+    rule, ``approvalrule``), with the evidence for the answer, ``approvals_needed`` and ``approvals_counted``,
+    and ``verdict_now``: the plan's check now at ``confidence`` (the other pending plans flown first)."""
+    from . import approvalrule  # noqa: PLC0415
+
     out: dict[int, dict[str, Any]] = {}
+    history = approvalrule.by_plan(snap.entries) if approvalrule.rule(snap.craft) else {}
     for p in snap.resolved.pending:
         current = plan_check(snap, s, p.seq, confidence)
         verdict_now = {k: current[k] for k in VERDICT_KEYS if k in current}
+        need = approvalrule.needed(snap.craft, p)
         d = snap.resolved.decisions.get(p.seq)
         if d is None:
-            out[p.seq] = {"approval": "none", "verdict_now": verdict_now}
+            out[p.seq] = {"approval": "none", "verdict_now": verdict_now, "approvals_needed": need,
+                          "approvals_counted": 0}
             continue
         then = dict(d.get("check") or {})
         row: dict[str, Any] = {"approval": "approved" if d.kind == APPROVE else "rejected", "entry": d.seq,
                                "by": d.by, "at": iso(d.at), "note": d.note, "check_then": then}
-        if d.kind == APPROVE and _changed_since(snap, int((d.get("head") or {}).get("seq", d.seq - 1))):
-            now = plan_check(snap, s, p.seq, float(then.get("confidence", DEFAULT_CONFIDENCE)))
-            row["check_now"] = {k: now[k] for k in ("verdict", "probability", "confidence", "dv_free_after_m_s")}
-            moved = abs(now["dv_free_after_m_s"] - float(then.get("dv_free_after_m_s", 0.0)))
-            tolerance = max(STALE_DV_ABS_M_S, STALE_DV_REL * abs(float(then.get("dv_free_after_m_s", 0.0))))
-            if now["verdict"] != then.get("verdict"):
-                row.update(approval="stale", reason=f"verdict now {now['verdict']}, was {then.get('verdict')}")
-            elif moved > tolerance:
-                row.update(approval="stale", reason=f"dv free after moved {moved:.3f} m/s (tolerance {tolerance:.3f})")
+        checks: dict[float, dict[str, Any]] = {}
+        if d.kind == APPROVE:
+            now, why = _recheck(snap, s, p.seq, d, checks)
+            if now is not None:
+                row["check_now"] = {k: now[k] for k in ("verdict", "probability", "confidence", "dv_free_after_m_s")}
+            if why:
+                row.update(approval="stale", reason=why)
+        if need > 1:
+            t = approvalrule.tally(history.get(p.seq, []), need, lambda a: _recheck(snap, s, p.seq, a, checks)[1])
+            row.update(t)
+            if t["approval"] != "stale":
+                row.pop("reason", None)
+        else:
+            row.update(approvals_needed=1, approvals_counted=int(row["approval"] == "approved"))
         row["verdict_now"] = verdict_now
         out[p.seq] = row
     return out
@@ -223,8 +268,11 @@ def status_with_confidence(snap: Snapshot, confidence: float = DEFAULT_CONFIDENC
     for row in data["pending_plans"]:
         a = u["approvals"][str(row["id"])]
         row["approval"] = a["approval"]
+        row["approvals_needed"] = a.get("approvals_needed", 1)
+        row["approvals_counted"] = a.get("approvals_counted", int(a["approval"] == "approved"))
         if a["approval"] != "none":
-            row["approval_detail"] = {k: v for k, v in a.items() if k not in ("approval", "verdict_now")}
+            row["approval_detail"] = {k: v for k, v in a.items() if k not in (
+                "approval", "verdict_now", "approvals_needed", "approvals_counted")}
         if a.get("verdict_now"):
             row["verdict_now"] = verdicts[str(row["id"])] = a["verdict_now"]
     data["warnings"] = combined(data["warnings"], data["pending_plans"], verdicts)

@@ -28,6 +28,17 @@ APPROVAL_TAG = {
 """A plan's approval state as glyph, words and colour ('approved?' until the Monte Carlo has said
 whether the ledger has moved under the approval)."""
 
+
+def approval_tag(state: str | None) -> tuple[str, str, str]:
+    """Glyph, words and colour of an approval state; a partial one under the craft's two-person rule comes
+    as its words, e.g. '1 of 2 approvals' (``services.approvalrule.words``)."""
+    state = state or "none"
+    if state in APPROVAL_TAG:
+        return APPROVAL_TAG[state]
+    if state.endswith(" approvals") and " of " in state:
+        return ("◐", state, "yellow")
+    return APPROVAL_TAG["none"]
+
 # Gauge cells: the glyph carries the meaning, colour only repeats it.
 FREE, RESERVE, RESIDUAL, EMPTY = "█", "▒", "░", "·"
 LEGEND = f"{FREE} free  {RESERVE} reserve  {RESIDUAL} residual  {EMPTY} used"

@@ -14,7 +14,7 @@ from functools import partial
 from typing import Any, Callable
 
 from ..errors import LedgerError
-from ..services import uncertainty
+from ..services import approvalrule, uncertainty
 from ..services.probtext import prob_text
 from ..services.forecast import forecast
 from ..services.ledger import Snapshot
@@ -196,12 +196,19 @@ def panel_inputs(snap: Snapshot, status: dict[str, Any], tanks: list[dict[str, A
         if miss:
             fc = dict(fc, engines=[dict(f, low={"runs_out": miss}) for f in fc["engines"]])
     approvals: dict[int, str] = {}
+    history = approvalrule.by_plan(snap.entries) if approvalrule.rule(snap.craft) else {}
     for p in snap.resolved.pending:
         if res and str(p.seq) in res["approvals"]:
-            approvals[p.seq] = res["approvals"][str(p.seq)]["approval"]
+            a = res["approvals"][str(p.seq)]
+            approvals[p.seq] = approvalrule.words(a) if a["approval"] == approvalrule.PARTIAL else a["approval"]
         else:
             d = snap.resolved.decisions.get(p.seq)
             approve = "unchecked" if lows.error is not None else "approved?"
+            need = approvalrule.needed(snap.craft, p)
+            have = len(approvalrule.current(history.get(p.seq, []))) if need > 1 else need
+            if d is not None and d.kind == "approve" and have < need:  # too few names even before any re-check
+                approve = approvalrule.words({"approval": approvalrule.PARTIAL, "approvals_counted": have,
+                                              "approvals_needed": need})
             approvals[p.seq] = "none" if d is None else approve if d.kind == "approve" else "rejected"
     return tank_rows, list(engines.values()), with_shares(snap, fc["engines"]), approvals
 

@@ -79,7 +79,7 @@ class DecideForm(FormDialog):
                    style="bold black on #00d700" if ok else "bold white on red3")
         out.append(f"  {res['engine']} {res['dv_m_s']:,.2f} m/s, dv free after {res['dv_free_after_m_s']:,.2f} m/s\n")
         state = self.screen_approval(int(seq))
-        sym, words, style = fmt.APPROVAL_TAG.get(state, fmt.APPROVAL_TAG["none"])
+        sym, words, style = fmt.approval_tag(state)
         out.append("approval now: ")
         out.append(f"{sym} {words}", style=style)
         return out

@@ -46,7 +46,7 @@ def detail_text(d: dict[str, Any]) -> Text:
             line(k, f"{v:,.6g} {UNITS[k]}" if k in UNITS and isinstance(v, (int, float)) else v)
     line("status", d.get("state"))
     if d["kind"] == "plan" and d.get("state") == "pending" and d.get("approval_now"):
-        sym, words, style = fmt.APPROVAL_TAG.get(d["approval_now"], fmt.APPROVAL_TAG["none"])
+        sym, words, style = fmt.approval_tag(d["approval_now"])
         line("approval", f"{sym} {words}", style)
     line("superseded", "yes: a later correction replaces it" if d.get("superseded") else None, "bold red")
     line("corrected by", ", ".join(f"#{c}" for c in d.get("corrected_by", [])) or None)

@@ -104,7 +104,7 @@ def decision_lines(d: Mapping[str, Any], approval_now: str | None = None) -> lis
         ("ledger head seen", f"#{head.get('seq')} {str(head.get('hash', ''))[:24]}…", "grey70"),
     ]
     if approval_now:
-        sym, words, style = fmt.APPROVAL_TAG.get(approval_now, fmt.APPROVAL_TAG["none"])
+        sym, words, style = fmt.approval_tag(approval_now)
         out.insert(1, ("plan's state now", f"{sym} {words}", style))
     return out
 

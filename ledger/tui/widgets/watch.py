@@ -13,11 +13,13 @@ from .. import fmt
 
 def approval_text(state: str | None, wide: bool) -> Text:
     """Glyph and word(s) for a plan's approval state (the glyph alone never carries it)."""
-    sym, words, style = fmt.APPROVAL_TAG.get(state or "none", fmt.APPROVAL_TAG["none"])
+    sym, words, style = fmt.approval_tag(state or "none")
     if not wide:
         words = {"approval stale": "stale", "approved, re-checking": "approved…",
                  "approved, not re-checked": "approved?"}.get(
             words, words)
+        if words.endswith(" approvals") and " of " in words:  # '1 of 2 approvals' -> '1/2 approved'
+            words = words[:-len(" approvals")].replace(" of ", "/") + " approved"
     return Text(f"{sym} {words}", style=style)
 
 

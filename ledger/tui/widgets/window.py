@@ -69,7 +69,7 @@ def status_text(row: dict[str, Any], data: Mapping[str, Any] | None = None, appr
     if kind == "plan":
         status = row.get("state", "")
         if status == "pending" and approval:
-            sym, words, _ = fmt.APPROVAL_TAG.get(approval, fmt.APPROVAL_TAG["none"])
+            sym, words, _ = fmt.approval_tag(approval)
             status += f" {sym} {words}"
     elif kind == "correct":
         status = f"fixes #{row.get('corrects')}"

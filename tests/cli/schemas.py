@@ -63,9 +63,13 @@ STATUS = {
         "reserves": {"type": "array", "items": {"type": "object", "properties": {
             "id": STR, "engine": STR, "dv_m_s": NUM}}},
         "pending_plans": {"type": "array", "items": {"type": "object", "required": [
-            "id", "engine", "dv_m_s", "at", "approval"], "properties": {
+            "id", "engine", "dv_m_s", "at", "approval", "approvals_needed", "approvals_counted"], "properties": {
             "id": {"type": "integer"}, "engine": STR, "dv_m_s": NUM, "at": ISO,
-            "approval": {"type": "string", "enum": ["approved", "rejected", "stale", "none"]},
+            "approval": {"type": "string", "enum": ["approved", "rejected", "stale", "none", "partial"]},
+            "approvals_needed": {"type": "integer", "minimum": 1}, "approvals_counted": {"type": "integer", "minimum": 0},
+            "approval_detail": {"type": "object", "properties": {
+                "approvers": {"type": "array", "items": STR},
+                "stale_approvers": {"type": "object", "additionalProperties": STR}}},
             "verdict_now": PLAN_CHECK_NOW}}},
         "forecast": {"type": "object", "properties": {"engines": {"type": "array", "items": {
             "type": "object", "required": ["engine"], "properties": {

@@ -108,7 +108,9 @@ class DecideForm(FormDialog):
         stored, check, warnings = result
         word = "approved" if stored["kind"] == APPROVE else "rejected"
         summary = (f"plan #{stored['data']['plan']} {word} by {stored['by']}: check {check['verdict']}, reserves "
-                   f"intact with {prob_text(check['probability'], check.get('samples'))} at {check['confidence']:g}")
+                   f"intact with {prob_text(check['probability'], check.get('samples'))} at {check['confidence']:g}"
+                   + (f"; {check['approvals_counted']} of {check['approvals_needed']} approvals"
+                      if stored["kind"] == APPROVE and "approvals_needed" in check else ""))
         self.app.notify(summary, timeout=10)
         self.app.recorded(stored["seq"], stored["kind"], warnings)
         self.dismiss(stored)

@@ -18,8 +18,6 @@ def approval_text(state: str | None, wide: bool) -> Text:
         words = {"approval stale": "stale", "approved, re-checking": "approved…",
                  "approved, not re-checked": "approved?"}.get(
             words, words)
-        if words.endswith(" approvals") and " of " in words:  # '1 of 2 approvals' -> '1/2 approved'
-            words = words[:-len(" approvals")].replace(" of ", "/") + " approved"
     return Text(f"{sym} {words}", style=style)
 
 

@@ -25,6 +25,14 @@ def approver_name(entry: Entry) -> str:
     return str(entry.by)
 
 
+def name_to_record(ledger: Any, by: str) -> str:
+    """The name a new decision will be recorded under, for the one-person-twice test before writing: ``by``,
+    unless the store says otherwise through a ``recorded_name(by)`` method (a store that records the
+    authenticated session user whatever ``--by`` says)."""
+    hook = getattr(ledger, "recorded_name", None)
+    return str(hook(by)) if callable(hook) else str(by)
+
+
 def person(name: str) -> str:
     """The identity two names are compared by: case and runs of blanks ignored, so 'a.  okafor' cannot
     count as a second person beside 'A. Okafor'."""
@@ -104,4 +112,4 @@ def twice(decisions: Sequence[Entry], name: str, changed_since: Callable[[int], 
     return None
 
 
-__all__ = ["PARTIAL", "approver_name", "person", "rule", "needed", "by_plan", "current", "tally", "words", "twice"]
+__all__ = ["PARTIAL", "approver_name", "name_to_record", "person", "rule", "needed", "by_plan", "current", "tally", "words", "twice"]

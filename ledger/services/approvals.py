@@ -41,7 +41,8 @@ def decide(ledger: Ledger, kind: str, plan: Any, by: str | None, note: str | Non
     need = approvalrule.needed(snap.craft, snap.resolved.effective[seq])
     history = approvalrule.by_plan(snap.entries).get(seq, []) if need > 1 else []
     if kind == APPROVE and need > 1:
-        again = approvalrule.twice(history, str(by), lambda head: uncertainty._changed_since(snap, head))
+        again = approvalrule.twice(history, approvalrule.name_to_record(ledger, str(by)),
+                                   lambda head: uncertainty._changed_since(snap, head))
         if again is not None:
             raise InputError(f"approve: plan {seq} is already approved by {approvalrule.approver_name(again)} "
                              f"(entry {again.seq}) on the ledger as it stands; it needs {need} distinct names, "

@@ -77,6 +77,16 @@ def test_same_name_twice_is_refused_and_two_names_approve(led):
     assert row["approval_detail"]["approvers"] == ["A. Okafor", "B. Lee"]
 
 
+def test_handover_shows_the_count(led):
+    p = plan(led, "20 m/s")
+    run("--ledger", led, "approve", "--plan", str(p), "--by", "A. Okafor", *S, check=True)
+    text = run("--ledger", led, "handover", "--from", "J. Moreau", "--to", "K. Tanaka", "--no-record", check=True)
+    assert "approval 1 of 2 approvals" in flat(text.stdout)
+    md = run("--ledger", led, "handover", "--from", "J. Moreau", "--to", "K. Tanaka", "--no-record", "--format", "md",
+             check=True)
+    assert "1 of 2 approvals" in flat(md.stdout)
+
+
 def test_threshold_boundary_exactly_at_above_dv_needs_one_approval(led):
     at = plan(led, "5 m/s")
     above = plan(led, "5.01 m/s", "2027-02-01T00:00:00Z")

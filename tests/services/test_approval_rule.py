@@ -198,3 +198,22 @@ def test_burn_warning_and_approved_only_use_the_rule(led):
 def test_the_approver_is_the_recorded_by():
     e = Entry(4, "approve", T0, T0, "  F. Lead ", "", {"plan": 1})
     assert approvalrule.approver_name(e) == "  F. Lead " and approvalrule.person("  F. Lead ") == "f. lead"
+
+
+def test_a_store_can_say_which_name_a_decision_is_recorded_under(led):
+    """The database store records the authenticated session user whatever --by says: the one-person-twice
+    test must compare that name (approvalrule.name_to_record), not the --by text."""
+    decide(led, 1, "A. Okafor")
+
+    class SessionUser:
+        def __init__(self, inner):
+            self.inner = inner
+
+        def recorded_name(self, by):
+            return "A. Okafor"
+
+        def __getattr__(self, name):
+            return getattr(self.inner, name)
+
+    with pytest.raises(InputError, match="already approved by A. Okafor"):
+        approvals.decide(SessionUser(led), "approve", 1, "someone else", None, samples=SAMPLES)

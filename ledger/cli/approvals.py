@@ -21,7 +21,8 @@ def add_confidence_options(p) -> None:
 def register(sub) -> None:
     p = sub.add_parser("approve", **about("approve a pending plan; records the check it was based on"))
     p.add_argument("--plan", required=True, help="id of the pending plan, e.g. 12")
-    p.add_argument("--by", required=True, help="name of the person approving, e.g. 'A. Lindqvist'")
+    p.add_argument("--by", required=True, help="name of the person approving, e.g. 'A. Lindqvist'; under the craft's "
+                   "operations: approval rule each name counts once")
     p.add_argument("--note", help="free text kept with the approval, e.g. 'per FD review 14'")
     add_confidence_options(p)
     p.add_argument("--json", action="store_true", help="print the result as JSON, e.g. to keep the check")

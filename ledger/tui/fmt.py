@@ -64,6 +64,28 @@ def kind_text(kind: str, superseded: bool = False) -> Text:
     return Text(f"{sym} {label}", style=style + (" strike dim" if superseded else ""))
 
 
+PLAN_STATE_TAG = {
+    "pending": ("◇", "pending"), "executed": ("◆", "executed"),
+    "withdrawn": ("✕", "withdrawn"), "rejected": ("⊘", "rejected"),
+}
+"""A plan row's kind cell: its own glyph and word per state, so the four never differ by colour alone
+(a rejected plan stays pending until withdrawn; its glyph matches the rejection entry's)."""
+
+
+def plan_state(state: str | None, approval: str | None = None) -> str:
+    """'pending', 'executed', 'withdrawn' or 'rejected' (a pending plan whose decision is a rejection)."""
+    if state == "pending" and approval == "rejected":
+        return "rejected"
+    return state if state in PLAN_STATE_TAG else "pending"
+
+
+def plan_text(state: str | None, approval: str | None = None, superseded: bool = False) -> Text:
+    """'◆ PLAN executed' and so on: glyph and word both say the state; colour only repeats the kind."""
+    sym, word = PLAN_STATE_TAG[plan_state(state, approval)]
+    style = KIND_STYLE["plan"] + (" strike dim" if superseded else "")
+    return Text(f"{sym} PLAN {word}", style=style)
+
+
 def kind_label(kind: str) -> str:
     sym, label = KIND_TAG.get(kind, ("?", kind.upper()))
     return f"{sym} {label}"

@@ -38,3 +38,39 @@ def test_plan_states_have_their_own_glyph_and_word(ledger_path):
             assert "Decision support only" in str(app.main.query_one("#caution").render())
 
     run(go())
+
+
+def test_handover_preview_fits_80x24_with_the_last_column_header(ledger_path):
+    """The text report is 80 columns; the preview at 80x24 has fewer cells (padding, scrollbar), and its
+    last column was cut. It now wraps to the room it has; the tables' last headers stay whole."""
+    from textual.containers import VerticalScroll  # noqa: PLC0415
+    from textual.widgets import Input, Static  # noqa: PLC0415
+
+    from ledger.tui.screens.handover import HandoverScreen  # noqa: PLC0415
+    from tui_support import type_text  # noqa: PLC0415
+
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=SIZE) as pilot:
+            await ready(app, pilot)
+            await pilot.press("h")
+            await pilot.pause(0.2)
+            screen = app.screen
+            assert isinstance(screen, HandoverScreen)
+            screen.query_one("#h-from", Input).value = "A. Day"
+            screen.query_one("#h-to", Input).focus()
+            await type_text(pilot, "B. Night")
+            await until(pilot, lambda: screen.report is not None, what="report")
+            await pilot.pause(0.2)
+            body = screen.query_one("#handover-body", VerticalScroll)
+            room = body.scrollable_content_region.width  # cells left of the scrollbar, inside the padding
+            text = str(screen.query_one("#handover-text", Static).render())
+            lines = text.split("\n")
+            assert room < 80 and max(len(x) for x in lines) <= room, (room, max(lines, key=len))
+            # the state tables' last column headers are on their header lines, whole
+            assert any(x.rstrip().endswith("residual kg") for x in lines)
+            assert any(x.rstrip().endswith("limiting tank") for x in lines)
+            assert "Decision support only" in text
+            assert "Decision support only" in str(screen.query_one("#caution").render())
+
+    run(go())

@@ -74,3 +74,51 @@ def test_handover_preview_fits_80x24_with_the_last_column_header(ledger_path):
             assert "Decision support only" in str(screen.query_one("#caution").render())
 
     run(go())
+
+
+def test_trend_at_80x24_one_engine_at_a_time_with_legend_and_clear_dates(ledger_path):
+    """Four stacked dv charts left each two rows at 80x24 and their tick labels ran into the dates. Now one
+    engine's chart at a time ('e' steps on), line names in a legend line, dates on their own axis line."""
+    import re  # noqa: PLC0415
+
+    from textual_plotext import PlotextPlot  # noqa: PLC0415
+
+    from ledger.tui.screens.trend import TrendScreen  # noqa: PLC0415
+
+    date = re.compile(r"\d{4}-\d{2}-\d{2}")
+
+    def axis_ok(lines: list[str]) -> None:
+        dated = [x for x in lines if date.search(x)]
+        assert len(dated) == 1, lines  # the dates are on one line of their own
+        assert len(date.findall(dated[0])) >= 3
+        assert re.fullmatch(r"(\s+\d{4}-\d{2}-\d{2})+\s*", dated[0]), dated[0]  # nothing else on it, each whole
+        words = ("total", "free", "reserves", "remaining", "UTC")  # titles and names live outside the chart
+        assert not any(w in x for w in words for x in lines), lines
+
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=SIZE) as pilot:
+            await ready(app, pilot)
+            await pilot.press("t")
+            await pilot.pause(0.5)
+            screen = app.screen
+            assert isinstance(screen, TrendScreen)
+            legend = str(screen.query_one("#trend-legend").render())
+            for name in ("• total", "x ox", "+ fuel", "o hyd"):  # the test craft's tanks (tests/tui/craft.yaml)
+                assert name in legend, legend
+            prop, dv = screen.query_one("#plot-prop", PlotextPlot), screen.query_one("#plot-dv", PlotextPlot)
+            for plot in (prop, dv):
+                assert plot.size.height >= 6  # room for data between the frame and the axis line
+                axis_ok(plot.render().plain.split("\n"))
+            engines = [e.id for e in app.snap.craft.engines]
+            assert len(engines) >= 2
+            assert f"dv free for {engines[0]}" in str(dv.border_title)
+            await pilot.press("e")
+            await pilot.pause(0.3)
+            assert f"dv free for {engines[1]}" in str(dv.border_title)
+            axis_ok(dv.render().plain.split("\n"))
+            squeezed = str(screen.query_one("#keys").render()).replace(" ", "")
+            assert "eNextengine" in squeezed  # a whole-word key label
+            assert "Decision support only" in str(screen.query_one("#caution").render())
+
+    run(go())

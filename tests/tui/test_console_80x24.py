@@ -122,3 +122,49 @@ def test_trend_at_80x24_one_engine_at_a_time_with_legend_and_clear_dates(ledger_
             assert "Decision support only" in str(screen.query_one("#caution").render())
 
     run(go())
+
+
+def test_each_colour_has_one_meaning(ledger_path):
+    """Orange was the theme's accent (titles, keys), the safety caution's colour, the reserve cells of the
+    tank bars and the marginal verdict at once. Now: orange only for 'look again' (marginal, stale approval,
+    warnings); reserves, titles and the caution each have their own style (docs/screens/colours.md)."""
+    from rich.color import Color  # noqa: PLC0415
+
+    from ledger.tui.dialogs.check import VERDICT_TAG  # noqa: PLC0415
+    from ledger.tui.widgets.watch import VERDICT_WORD  # noqa: PLC0415
+
+    def hexof(style: str) -> str:
+        """The colour a rich style string paints (the background for 'x on y')."""
+        from rich.style import Style  # noqa: PLC0415
+        st = Style.parse(style)
+        col = st.bgcolor if " on " in style else st.color
+        return col.get_truecolor().hex.lower()
+
+    attention = fmt.COLOUR["attention"].lower()
+    # one meaning, one colour: every 'look again' mark is the attention colour
+    assert hexof(VERDICT_TAG["marginal"][1]) == attention
+    assert hexof(VERDICT_WORD["marginal"][1]) == attention
+    assert hexof(fmt.APPROVAL_TAG["stale"][2]) == attention
+    reserve = hexof(fmt.GLYPH_STYLE[fmt.RESERVE])
+
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=SIZE) as pilot:
+            await ready(app, pilot)
+            caution = app.main.query_one("#caution")
+            caution_fg = caution.styles.color.hex.lower()[:7]
+            variables = app.get_css_variables()
+            accent = Color.parse(variables["accent"]).get_truecolor().hex.lower()
+            title = app.main.query_one("#watch-box").styles.border_title_color.hex.lower()[:7]
+            assert accent == title  # the titles take the accent
+            # the previously shared meanings each have their own colour now
+            colours = {"attention": attention, "reserve": reserve, "accent": accent, "caution": caution_fg}
+            assert len(set(colours.values())) == 4, colours
+            assert caution.styles.text_style.italic
+            # the bar really paints its reserve cells in the reserve colour
+            bar = fmt.gauge({"load_kg": 100.0, "remaining_kg": 60.0, "residual_kg": 2.0, "reserve_kg": 10.0}, 20)
+            painted = {bar.plain[s.start]: s.style for s in bar.spans}
+            assert hexof(str(painted[fmt.RESERVE])) == reserve
+            assert "Decision support only" in str(caution.render())
+
+    run(go())

@@ -129,7 +129,10 @@ def resolve(entries: Iterable[Entry]) -> Resolved:
         target = int(e.data["entry"])
         superseded.add(target)
         root = _root(target, by_seq)
-        effective[root] = apply_correction(effective[root], e.data.get("changes", {}))
+        fixed = apply_correction(effective[root], e.data.get("changes", {}))
+        if "plan_warnings" in e.data:  # a corrected burn's plan warnings, re-worked when it was corrected
+            fixed = fixed._replace(data={**fixed.data, "plan_warnings": list(e.data["plan_warnings"])})
+        effective[root] = fixed
     executed_by: dict[int, int] = {}
     withdrawn: set[int] = set()
     events, plans = [], []

@@ -8,6 +8,8 @@ from __future__ import annotations
 import math
 from typing import Any, Mapping
 
+import numpy as np
+
 from ..core.craft import Craft
 from ..core.entries import APPROVE
 from .ledger import Snapshot
@@ -27,9 +29,20 @@ def dv_tolerance(craft: Craft) -> tuple[float, float]:
     return float(tol.get("relative", DEFAULT_DV_REL)), float(tol.get("absolute_m_s", DEFAULT_DV_ABS_M_S))
 
 
-def achieved_dv(snap: Snapshot, payload: Mapping[str, Any]) -> float | None:
+def mass_before(snap: Snapshot, at: float) -> float:
+    """The craft's mass just before an event at ``at`` added to ``snap``: after every replayed event at or
+    before that time (replay order is (at, seq), and a new entry has the highest seq), else the loaded mass.
+    A back-dated burn flies from the mass it had then, not from the mass on board now."""
+    events = snap.resolved.events
+    ats = np.fromiter((e.at for e in events), dtype=float, count=len(events))
+    k = int(np.searchsorted(ats, float(at), side="right"))
+    return float(snap.replay.mass_after[k - 1]) if k else float(snap.craft.initial_mass_kg)
+
+
+def achieved_dv(snap: Snapshot, payload: Mapping[str, Any], at: float | None = None) -> float | None:
     """The burn's delta-v: as logged, else from its duration or propellant at nominal thrust and Isp,
-    flown from the mass on board now (Tsiolkovsky)."""
+    flown from the mass at the burn's time ``at`` (the mass on board now when no time is given) by the
+    rocket equation dv = ve ln(m0 / (m0 - mp))."""
     if payload.get("dv") is not None:
         return float(payload["dv"])
     e = snap.craft.engine_index(payload["engine"])
@@ -40,7 +53,7 @@ def achieved_dv(snap: Snapshot, payload: Mapping[str, Any]) -> float | None:
         p = float(payload["propellant"])
     else:
         return None
-    m = snap.state.mass_kg
+    m = snap.state.mass_kg if at is None else mass_before(snap, at)
     return eng.ve * math.log(m / (m - p)) if 0 < p < m else None
 
 
@@ -106,7 +119,7 @@ def plan_warnings(snap: Snapshot, payload: Mapping[str, Any], at: float, now: fl
     if why:
         out.append(why)
     planned = float(plan.get("dv"))
-    done = achieved_dv(snap, payload)
+    done = achieved_dv(snap, payload, at)
     rel, abs_m_s = dv_tolerance(snap.craft)
     tol = max(rel * abs(planned), abs_m_s)
     if done is not None and abs(done - planned) > tol:
@@ -118,3 +131,37 @@ def plan_warnings(snap: Snapshot, payload: Mapping[str, Any], at: float, now: fl
     if at > now + FUTURE_SLACK_S:
         out.append(f"burn time {iso(at)} is in the future")
     return out
+
+
+def preview(snap: Snapshot, data: Mapping[str, Any], at: float | None = None) -> list[str]:
+    """The warnings recording this burn would store, worked out on ``snap``, nothing written (the console's
+    burn form shows them before it records). Raises InputError for data the ledger would refuse."""
+    from ..core.entries import BURN  # noqa: PLC0415
+    from .records import validate_data  # noqa: PLC0415
+    from .timefmt import now  # noqa: PLC0415
+
+    if data.get("plan") is None:
+        return []
+    payload = validate_data(snap.craft, snap.resolved, BURN, data)
+    t = now()
+    return plan_warnings(snap, payload, t if at is None else float(at), t)
+
+
+def before(snap: Snapshot, seq: int) -> Snapshot:
+    """The ledger as it stood just before entry ``seq`` was appended: its earlier entries, replayed."""
+    from ..core.entries import resolve  # noqa: PLC0415
+    from ..core.replay import replay  # noqa: PLC0415
+    from .ledger import assemble  # noqa: PLC0415
+
+    entries = tuple(e for e in snap.entries if e.seq < seq)
+    resolved = resolve(entries)
+    return assemble(snap.path, snap.craft, snap.meta, [], entries, resolved, replay(snap.craft, resolved.events),
+                    None)
+
+
+def corrected_warnings(snap: Snapshot, burn_seq: int, corrected: Any) -> list[str]:
+    """The plan warnings for a burn's corrected content: worked out as when the burn was recorded (the
+    ledger before it, the clock at its recording), with the corrected engine, amount, time and plan."""
+    original = next(e for e in snap.entries if e.seq == burn_seq)
+    payload = {k: v for k, v in corrected.data.items() if k != "plan_warnings"}
+    return plan_warnings(before(snap, burn_seq), payload, corrected.at, original.recorded)

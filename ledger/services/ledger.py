@@ -226,6 +226,11 @@ class Ledger:
                 data.pop("plan", None)  # the link it already has is not re-checked against itself
                 validate_data(snap.craft, snap.resolved, merged.kind, data)
             payload = {"entry": seq, "changes": dict(changes), "reason": clean_text(reason, "--reason")}
+            if merged.kind == BURN and merged.data.get("plan") is not None:
+                from .execution import corrected_warnings  # noqa: PLC0415
+
+                # the burn's plan warnings for its corrected content (resolve puts them on the burn)
+                payload["plan_warnings"] = corrected_warnings(snap, root, merged)
             rec = make_record(CORRECT, now(), now(), by, None, payload)
             rec["at"] = rec["recorded"]
             stored = self.file.append(_readable(rec))

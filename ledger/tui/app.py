@@ -7,6 +7,7 @@ the panels are redrawn from the snapshot that write leaves behind.
 """
 from __future__ import annotations
 
+import dataclasses
 import os
 import shutil
 import threading
@@ -19,7 +20,7 @@ from textual.screen import Screen
 from ..services import browse
 from ..services.ledger import Snapshot, resolve_path
 from ..services.live import LiveLedger
-from . import actions
+from . import actions, fmt
 from .dialogs.check import CheckDialog
 from .dialogs.decide import DecideForm
 from .dialogs.detail import AlertsDialog, DetailDialog
@@ -44,6 +45,19 @@ def warm_up_forms() -> None:
     registry()
 
 
+THEME = "propledger-dark"
+
+
+def console_theme():
+    """Textual's dark theme with one meaning per colour: its accent and warning were the same orange, also
+    used for the reserve bars and the marginal verdict. Titles and keys get a teal accent; orange is
+    kept for what needs a second look (fmt.COLOUR)."""
+    from textual.theme import BUILTIN_THEMES  # noqa: PLC0415
+
+    return dataclasses.replace(BUILTIN_THEMES["textual-dark"], name=THEME, accent=fmt.COLOUR["accent"],
+                               warning=fmt.COLOUR["attention"])
+
+
 class LedgerConsole(App):
     CSS_PATH = "console.tcss"
     TITLE = "propledger"
@@ -62,6 +76,9 @@ class LedgerConsole(App):
         self._painted_once = threading.Event()
         self._busy = False
         self.lows = LowBounds(self, self._lows_changed)
+        self.register_theme(console_theme())
+        self.theme = THEME
+
 
     # --- opening ------------------------------------------------------------------------------------
     def on_mount(self) -> None:

@@ -5,8 +5,16 @@ from datetime import datetime, timezone
 
 from rich.text import Text
 
-# Colours by hex: entries 40, 208, 247 and 242 of the xterm 256-colour palette (green, orange, two greys).
-# Textual's markup does not know those palette names and looks for a spelling suggestion on every redraw.
+# Colours by hex: entries of the xterm 256-colour palette (Textual's markup does not know those palette
+# names and looks for a spelling suggestion on every redraw). Each colour has one meaning in the console
+# (docs/screens/colours.md); glyphs and words always carry the meaning too, colour only repeats it.
+COLOUR = {
+    "attention": "#ff8700",  # 208 orange: look again before deciding (marginal verdict, stale approval, warnings)
+    "reserve": "#5fafff",    # 75 sky blue: propellant held back for the reserves (tank bars and legend)
+    "accent": "#5fd7d7",     # 80 teal: panel and form titles, key names (the console theme's accent)
+    "free": "#00d700",       # 40 green: free propellant; a feasible verdict, an approval that stands
+}
+"""The safety caution has its own style (plain text, italic, on the boost background; console.tcss)."""
 KIND_TAG = {
     "burn": ("▲", "BURN"), "plan": ("◇", "PLAN"), "mass": ("±", "MASS"),
     "use": ("•", "USE"), "withdraw": ("✕", "WDRW"), "correct": ("✎", "CORR"),
@@ -21,7 +29,7 @@ KIND_GROUPS = {"gauge": ("gauge", "rebaseline"), "approve": ("approve", "reject"
 
 APPROVAL_TAG = {
     "approved": ("✓", "approved", "green"), "rejected": ("⊘", "rejected", "bold red"),
-    "stale": ("⚠", "approval stale", "bold #ff8700"), "none": ("·", "undecided", "#9e9e9e"),
+    "stale": ("⚠", "approval stale", f"bold {COLOUR['attention']}"), "none": ("·", "undecided", "#9e9e9e"),
     "approved?": ("✓", "approved, re-checking", "green"),
     "unchecked": ("✓", "approved, not re-checked", "yellow"),
 }
@@ -42,7 +50,7 @@ def approval_tag(state: str | None) -> tuple[str, str, str]:
 # Gauge cells: the glyph carries the meaning, colour only repeats it.
 FREE, RESERVE, RESIDUAL, EMPTY = "█", "▒", "░", "·"
 LEGEND = f"{FREE} free  {RESERVE} reserve  {RESIDUAL} residual  {EMPTY} used"
-GLYPH_STYLE = {FREE: "#00d700", RESERVE: "#ff8700", RESIDUAL: "#9e9e9e", EMPTY: "#6c6c6c"}
+GLYPH_STYLE = {FREE: COLOUR["free"], RESERVE: COLOUR["reserve"], RESIDUAL: "#9e9e9e", EMPTY: "#6c6c6c"}
 
 
 def legend(compact: bool) -> str:
@@ -73,6 +81,28 @@ def kind_text(kind: str, superseded: bool = False) -> Text:
     sym, label = KIND_TAG.get(kind, ("?", kind.upper()))
     style = KIND_STYLE.get(kind, "")
     return Text(f"{sym} {label}", style=style + (" strike dim" if superseded else ""))
+
+
+PLAN_STATE_TAG = {
+    "pending": ("◇", "pending"), "executed": ("◆", "executed"),
+    "withdrawn": ("✕", "withdrawn"), "rejected": ("⊘", "rejected"),
+}
+"""A plan row's kind cell: its own glyph and word per state, so the four never differ by colour alone
+(a rejected plan stays pending until withdrawn; its glyph matches the rejection entry's)."""
+
+
+def plan_state(state: str | None, approval: str | None = None) -> str:
+    """'pending', 'executed', 'withdrawn' or 'rejected' (a pending plan whose decision is a rejection)."""
+    if state == "pending" and approval == "rejected":
+        return "rejected"
+    return state if state in PLAN_STATE_TAG else "pending"
+
+
+def plan_text(state: str | None, approval: str | None = None, superseded: bool = False) -> Text:
+    """'◆ PLAN executed' and so on: glyph and word both say the state; colour only repeats the kind."""
+    sym, word = PLAN_STATE_TAG[plan_state(state, approval)]
+    style = KIND_STYLE["plan"] + (" strike dim" if superseded else "")
+    return Text(f"{sym} PLAN {word}", style=style)
 
 
 def kind_label(kind: str) -> str:

@@ -99,3 +99,23 @@ CHECK = {
         "approved_only": {"type": "boolean"},
     },
 }
+
+GAUGE = {
+    "$schema": "https://json-schema.org/draft/2020-12/schema", "type": "object",
+    "required": ["tank", "fluid", "method", "pressure_pa", "temperature_k", "pressure_sigma_pa",
+                 "temperature_sigma_k", "propellant_kg", "sigma_kg", "bookkeeping_kg", "bookkeeping_sigma_kg",
+                 "difference_kg", "combined_sigma_kg", "difference_sigma", "flagged", "limit_sigma",
+                 "rebaseline_kg", "rebaseline_sigma_kg", "sigmas", "details", "at", "id", "dry_run", "warnings",
+                 "caution"],
+    "properties": {
+        "tank": STR, "fluid": STR, "method": {"type": "string", "enum": ["blowdown PVT", "gas density"]},
+        "pressure_pa": NUM, "temperature_k": NUM, "pressure_sigma_pa": NUM, "temperature_sigma_k": NUM,
+        "propellant_kg": NUM, "sigma_kg": NUM, "bookkeeping_kg": NUM, "bookkeeping_sigma_kg": NUM,
+        "difference_kg": NUM, "combined_sigma_kg": NUM, "difference_sigma": NUM, "flagged": {"type": "boolean"},
+        "limit_sigma": NUM, "rebaseline_kg": NUM, "rebaseline_sigma_kg": NUM,
+        "sigmas": {"type": "object", "additionalProperties": NUM},
+        "details": {"type": "object", "additionalProperties": NUM},
+        "at": ISO, "id": {"type": ["integer", "null"]}, "dry_run": {"type": "boolean"},
+        "warnings": {"type": "array", "items": STR}, "caution": STR,
+    },
+}

@@ -19,13 +19,14 @@ from ...services.probtext import prob_text
 from ...errors import LedgerError
 from ...services import browse, uncertainty
 from ...services.views import CAUTION
+from .. import fmt
 from ..lows import CONFIDENCE, SAMPLES, SEED, LowBounds
 from . import fields
 from .entries import engine_options, plan_options
 from .work import WorkMixin
 
 VERDICT_TAG = {"feasible": (" ✓ FEASIBLE ", "bold black on #00d700"),
-               "marginal": (" ◐ MARGINAL ", "bold black on #ff8700"),
+               "marginal": (" ◐ MARGINAL ", f"bold black on {fmt.COLOUR['attention']}"),
                "infeasible": (" ✗ INFEASIBLE ", "bold white on red3")}
 WAIT_S = 0.3
 """Typing pause before the confidence check starts (the nominal answer needs no pause)."""

@@ -32,6 +32,13 @@ def render(report: dict[str, Any], fmt: str) -> str:
     return render_report(report, fmt)
 
 
+def render_preview(report: dict[str, Any], width: int) -> str:
+    """The text report wrapped to the preview's width (the exported file keeps its 80 columns)."""
+    from ...reports import text  # noqa: PLC0415
+
+    return text.render(report, width=min(text.WIDTH, width))
+
+
 def default_file(ledger_path: str, report: dict[str, Any], fmt: str) -> str:
     """'<ledger folder>/handover-<from>-<YYYYmmddTHHMM>.<ext>' (the name made safe for any file system)."""
     who = re.sub(r"[^A-Za-z0-9]+", "-", report["from"]).strip("-").lower() or "shift"
@@ -75,7 +82,7 @@ class HandoverScreen(WorkMixin, Screen):
     def on_mount(self) -> None:
         self.query_one("#work").display = False
         self.query_one("#h-to" if self.query_one("#h-from", Input).value else "#h-from").focus()
-        self.query_one("#handover-body").border_title = "Report preview (text, 80 columns)"
+        self.query_one("#handover-body").border_title = "Report preview (text; export keeps 80 columns)"
 
     # --- the preview -----------------------------------------------------------------------------------
     def names(self) -> tuple[str, str, str | None]:
@@ -107,8 +114,19 @@ class HandoverScreen(WorkMixin, Screen):
         self.show_report()
         self.message(f"preview generated {report['generated'][:16].replace('T', ' ')} UTC · not recorded yet")
 
+    def preview_width(self) -> int:
+        """Cells the preview has for a line: the body less its padding and the vertical scrollbar."""
+        body = self.query_one("#handover-body", VerticalScroll)
+        return max(40, body.size.width - body.styles.scrollbar_size_vertical)
+
     def show_report(self) -> None:
-        self.query_one("#handover-text", Static).update(Text(render(self.report, "text"), no_wrap=True))
+        if self.report is None:
+            return
+        text = render_preview(self.report, self.preview_width())
+        self.query_one("#handover-text", Static).update(Text(text, no_wrap=True))
+
+    def on_resize(self, event) -> None:
+        self.call_after_refresh(self.show_report)
 
     def _failed(self, message: str) -> None:
         self.report = None

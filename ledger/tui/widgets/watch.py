@@ -21,7 +21,7 @@ def approval_text(state: str | None, wide: bool) -> Text:
     return Text(f"{sym} {words}", style=style)
 
 
-VERDICT_WORD = {"feasible": ("✓ go", "green"), "marginal": ("◐ MARGINAL", "bold yellow"),
+VERDICT_WORD = {"feasible": ("✓ go", "green"), "marginal": ("◐ MARGINAL", f"bold {fmt.COLOUR['attention']}"),
                 "infeasible": ("✗ INFEASIBLE", "bold red")}
 """A plan's check now, as a glyph and a word (never colour alone)."""
 
@@ -105,7 +105,7 @@ class WatchList(Widget):
         if not self.warnings:
             lines.append(Text("✓ no warnings", style="green"))
         for line in self._warning_lines(w):
-            lines.append(Text(line, style="#ff8700"))
+            lines.append(Text(line, style=fmt.COLOUR["attention"]))
         return lines
 
     def render(self) -> Text:

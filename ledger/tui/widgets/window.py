@@ -101,7 +101,8 @@ def cells(row: dict[str, Any], tank_ids: Sequence[str], narrow: bool = False,
     mass = row.get("mass_after_kg")
     out: list[Any] = [
         Text(str(row["id"]), justify="right"),
-        fmt.kind_text(row["kind"], row.get("superseded", False)),
+        (fmt.plan_text(row.get("state"), approval, row.get("superseded", False)) if row["kind"] == "plan"
+         else fmt.kind_text(row["kind"], row.get("superseded", False))),
         fmt.when(row.get("at"))[5:] if narrow else fmt.when(row.get("at")),
         row.get("engine") or "",
         Text(amount, justify="right"),

@@ -242,6 +242,15 @@ def rows(source: FolderSource, *, workers: int = WORKERS, use_cache: bool = True
     return [out[m] for m in members]
 
 
+def stale(source: FolderSource) -> list[str]:
+    """The members the cache cannot answer for (their rows would be computed)."""
+    from . import fleetcache  # noqa: PLC0415
+
+    cache = fleetcache.load(source.cache_base())
+    return [m for m in source.members()
+            if (cache.get(m) or {}).get("key") is None or cache[m]["key"] != source.fingerprint(m)]
+
+
 def refresh(source: FolderSource, member: str) -> dict[str, Any]:
     """One craft's row again (the live screen, after its file changed), in this process, and cached."""
     from . import fleetcache  # noqa: PLC0415

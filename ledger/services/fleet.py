@@ -187,7 +187,9 @@ def row_for_path(path: str) -> dict[str, Any]:
     from .ledger import Ledger  # noqa: PLC0415
 
     try:
-        return summarize(Ledger(path))
+        row = summarize(Ledger(path))
+        row["ledger"] = path  # the name the source lists it under (status gives the resolved path)
+        return row
     except LedgerError as exc:
         return unreadable_row(path, _one_line(exc))
     except (OSError, MemoryError, RecursionError, ValueError, KeyError, TypeError, AttributeError) as exc:

@@ -121,3 +121,35 @@ def test_the_craft_console_v_key_opens_the_fleet_when_one_is_configured(folder, 
     assert running and value is None  # no fleet: a notice, the console stays
     value, _ = run(go(True))
     assert value == "fleet"
+
+
+def test_run_fleet_opens_the_chosen_craft_and_comes_back(folder, monkeypatch):
+    """Enter on the fleet screen opens that craft's console; leaving it returns to the fleet screen."""
+    from ledger.tui import app as craft_app
+    from ledger.tui import fleet as fleet_screen
+
+    opened, shown = [], []
+    picks = iter([("open", f"{folder}/geo-comsat.json"), None])
+
+    def fleet_run(self):
+        shown.append(self.source.folder)
+        self._return_value = next(picks)
+
+    def craft_run(self):
+        opened.append((self.path, self.fleet_folder))
+
+    monkeypatch.setattr(fleet_screen.FleetApp, "run", fleet_run)
+    monkeypatch.setattr(craft_app.LedgerConsole, "run", craft_run)
+    assert fleet_screen.run_fleet(fleet.FolderSource(folder)) == 0
+    assert opened == [(f"{folder}/geo-comsat.json", folder)] and len(shown) == 2
+
+
+def test_fleet_command_in_a_terminal_opens_the_screen(folder, monkeypatch):
+    from ledger.cli import main
+
+    seen = []
+    monkeypatch.setattr("sys.stdout.isatty", lambda: True, raising=False)
+    monkeypatch.setattr("sys.stdin.isatty", lambda: True, raising=False)
+    monkeypatch.setattr("ledger.tui.fleet.run_fleet", lambda source, **kw: seen.append((source.folder, kw)) or 0)
+    assert main(["fleet", "--fleet", folder, "--sort", "margin"]) == 0
+    assert seen == [(folder, {"margin": fleet.DEFAULT_MARGIN_M_S, "sort": "margin", "only_attention": False})]

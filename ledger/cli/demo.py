@@ -17,6 +17,9 @@ def register(sub) -> None:
     p.add_argument("--scenario", default=DEFAULT, help=f"bundled scenario, e.g. {DEFAULT} (the default); 'list' lists them")
     p.add_argument("--folder", help="keep the demo ledger in this folder, e.g. --folder /tmp/mydemo "
                                     "(default: a temporary folder removed on exit)")
+    p.add_argument("--fleet", action="store_true",
+                   help="build the demo fleet (every bundled craft and two more) and open the fleet screen, "
+                        "e.g. with --print for its table")
     p.add_argument("--print", dest="print_only", action="store_true", help="print status and log instead of the console, e.g. in a terminal without full-screen support")
     p.set_defaults(func=cmd_demo)
 
@@ -34,6 +37,8 @@ def cmd_demo(args) -> int:
     folder = args.folder or tempfile.mkdtemp(prefix="propledger-demo-")
     os.makedirs(folder, exist_ok=True)
     try:
+        if args.fleet:
+            return _run_fleet_demo(args, folder)
         return _run_demo(args, found, folder)
     finally:
         if not args.folder:
@@ -64,3 +69,23 @@ def _run_demo(args, found, folder: str) -> int:
         cmd_status(args)
         return cmd_log(args)
     return open_console(args)
+
+
+def _run_fleet_demo(args, folder: str) -> int:
+    """The demo fleet in ``folder``: the fleet screen, or with --print its table."""
+    from ..services import fleet, scenario  # noqa: PLC0415
+
+    if args.folder and fleet.FolderSource(folder).members():
+        raise InputError(f"--folder: {folder} already holds ledgers; give an empty or new folder for the demo fleet")
+    scenario.build_fleet(folder)
+    kept = "kept, as --folder asked" if args.folder else "temporary: removed when the demo exits"
+    print(plain(f"demo fleet: {folder}  ({kept}; use --fleet {folder} with 'propledger fleet')"))
+    source = fleet.FolderSource(folder)
+    if args.print_only:
+        from .fleet import print_fleet  # noqa: PLC0415
+
+        print_fleet(source, fleet.view(fleet.rows(source)), fleet.DEFAULT_MARGIN_M_S)
+        return 0
+    from ..tui.fleet import run_fleet  # noqa: PLC0415
+
+    return run_fleet(source, demo=True)

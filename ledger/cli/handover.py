@@ -30,6 +30,9 @@ def register(sub) -> None:
     p.add_argument("--no-record", action="store_true",
                    help="preview only: append no handover entry and write no backup, e.g. before the shift ends")
     p.add_argument("--note", help="free text kept with the handover entry, e.g. 'quiet shift'")
+    p.add_argument("--fleet", metavar="DIR",
+                   help="one report over every ledger in DIR, each since its own last handover (and recorded in "
+                        "each unless --no-record), e.g. --fleet /ops/ledgers")
     p.set_defaults(func=cmd_handover)
 
 
@@ -48,6 +51,10 @@ def render(report: dict, fmt: str) -> str:
 
 
 def cmd_handover(args) -> int:
+    if getattr(args, "fleet", None):
+        from .fleet_handover import cmd_fleet_handover  # noqa: PLC0415
+
+        return cmd_fleet_handover(args)
     led = open_ledger(args)
     out = _out_path(args.out, led.path, args.force)  # refused before anything (even a cache) is written
     report = handover.assemble(led, from_name=args.from_name, to_name=args.to_name, since=args.since)

@@ -28,6 +28,27 @@ def bundled() -> dict[str, str]:
     return {f[:-5]: os.path.join(SCENARIO_DIR, f) for f in sorted(os.listdir(SCENARIO_DIR)) if f.endswith(".yaml")}
 
 
+FLEET_DIR = os.path.join(SCENARIO_DIR, "fleet")
+
+
+def demo_fleet() -> dict[str, str]:
+    """The demo fleet: every bundled scenario plus the craft in ``scenarios/fleet/`` (one with a warning,
+    one with nothing to flag), name -> path."""
+    found = dict(bundled())
+    if os.path.isdir(FLEET_DIR):
+        found.update({f[:-5]: os.path.join(FLEET_DIR, f) for f in sorted(os.listdir(FLEET_DIR)) if f.endswith(".yaml")})
+    return found
+
+
+def build_fleet(folder: str) -> list[str]:
+    """One ledger per demo-fleet craft in ``folder`` (``NAME.json``); returns their paths."""
+    paths = []
+    for name, path in demo_fleet().items():
+        paths.append(os.path.join(folder, f"{name}.json"))
+        build(path, paths[-1])
+    return paths
+
+
 def _item_data(item: dict[str, Any], where: str, refs: dict[str, int]) -> dict[str, Any]:
     data: dict[str, Any] = {}
     if "engine" in item:

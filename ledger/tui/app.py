@@ -58,9 +58,15 @@ def console_theme():
                                warning=fmt.COLOUR["attention"])
 
 
+FLEET_KEY = "v"
+"""Opens the fleet screen when a fleet folder is configured; a palette command too, not in the key bar
+(which holds the single-craft actions on two lines at 80 columns)."""
+
+
 class LedgerConsole(App):
     CSS_PATH = "console.tcss"
     TITLE = "propledger"
+    BINDINGS = [(FLEET_KEY, "open_fleet", "Fleet")]
 
     def __init__(self, path: str, demo: bool = False) -> None:
         super().__init__()
@@ -78,7 +84,7 @@ class LedgerConsole(App):
         self.lows = LowBounds(self, self._lows_changed)
         self.register_theme(console_theme())
         self.theme = THEME
-
+        self.fleet_folder: str | None = os.environ.get("PROPLEDGER_FLEET") or None  # the v key's fleet
 
     # --- opening ------------------------------------------------------------------------------------
     def on_mount(self) -> None:
@@ -239,6 +245,18 @@ class LedgerConsole(App):
             from .screens.trend import TrendScreen  # noqa: PLC0415 - plotext loads when first asked for
             self.push_screen(TrendScreen())
 
+    def action_open_fleet(self) -> None:
+        if self.main is not None and self.screen is self.main:  # never from a form or dialog
+            self.open_fleet()
+
+    def open_fleet(self) -> None:
+        """Leave this craft for the fleet screen (``run_console`` opens it), when a fleet is configured."""
+        if not self.fleet_folder:
+            self.notify("no fleet configured: set PROPLEDGER_FLEET to the folder of ledgers, or run "
+                        "'propledger fleet --fleet DIR'", severity="warning", timeout=8)
+            return
+        self.exit("fleet")
+
     def open_alerts(self) -> None:
         if self.snap is not None:
             chain = ("intact" if self.live.verified else "being checked") if self.snap.integrity is None \
@@ -271,6 +289,9 @@ class LedgerConsole(App):
             return
         for a in actions.ACTIONS:
             yield SystemCommand(f"{a.title}  ({a.key_display or a.key})", a.help, getattr(self.main, f"action_{a.name}"))
+        yield SystemCommand(f"Open the fleet screen  ({FLEET_KEY})",
+                            "every craft of the fleet folder ($PROPLEDGER_FLEET) by attention; Enter opens one",
+                            self.open_fleet)
 
 
 def make_app(path: str, demo: bool = False) -> LedgerConsole:
@@ -282,4 +303,9 @@ def run_console(args) -> int:
     path = resolve_path(getattr(args, "ledger", None))
     app = make_app(path, bool(getattr(args, "demo", False)))
     app.run()
+    if app.return_value == "fleet" and app.fleet_folder:
+        from ..services.fleet import FolderSource  # noqa: PLC0415
+        from .fleet import run_fleet  # noqa: PLC0415
+
+        return run_fleet(FolderSource(app.fleet_folder))
     return int(app.return_code or 0)

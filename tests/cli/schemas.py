@@ -119,3 +119,52 @@ GAUGE = {
         "warnings": {"type": "array", "items": STR}, "caution": STR,
     },
 }
+
+NUM_OR_NULL = {"type": ["number", "null"]}
+STR_OR_NULL = {"type": ["string", "null"]}
+FLEET_ROW = {
+    "type": "object",
+    "required": ["state", "craft", "ledger", "error", "entries", "head", "as_of", "last_entry_at", "mass_kg",
+                 "confidence", "usable_kg", "usable_low_kg", "tanks", "engines", "margin_engine", "margin_m_s",
+                 "runout", "pending_plans", "warnings", "warnings_count", "integrity", "last_gauge_at",
+                 "days_since_gauge", "attention"],
+    "properties": {
+        "state": {"type": "string", "enum": ["ok", "broken", "unreadable"]},
+        "craft": STR_OR_NULL, "ledger": STR, "error": STR_OR_NULL, "entries": {"type": ["integer", "null"]},
+        "head": {"type": ["object", "null"], "required": ["seq", "hash"],
+                 "properties": {"seq": {"type": "integer"}, "hash": STR}},
+        "as_of": {"anyOf": [ISO, {"type": "null"}]}, "last_entry_at": STR_OR_NULL, "mass_kg": NUM_OR_NULL,
+        "confidence": NUM_OR_NULL, "usable_kg": NUM_OR_NULL, "usable_low_kg": NUM_OR_NULL,
+        "tanks": {"type": "object", "additionalProperties": {"type": "object", "required": ["usable_kg", "usable_low_kg"],
+                                                             "properties": {"usable_kg": NUM, "usable_low_kg": NUM}}},
+        "engines": {"type": "object", "additionalProperties": {
+            "type": "object", "required": ["dv_available_m_s", "dv_free_m_s", "dv_free_low_m_s", "limiting_tank",
+                                           "reserves_met"],
+            "properties": {"dv_available_m_s": NUM, "dv_free_m_s": NUM, "dv_free_low_m_s": NUM,
+                           "limiting_tank": STR_OR_NULL, "reserves_met": {"type": "boolean"}}}},
+        "margin_engine": STR_OR_NULL, "margin_m_s": NUM_OR_NULL,
+        "runout": {"type": "array", "items": {"type": "object", "required": ["engine", "runs_out", "runs_out_low"],
+                                              "properties": {"engine": STR, "dv_per_year_m_s": NUM,
+                                                             "runs_out": STR_OR_NULL, "runs_out_low": STR_OR_NULL,
+                                                             "years_left": NUM_OR_NULL, "years_left_low": NUM_OR_NULL}}},
+        "pending_plans": {"type": "array", "items": {
+            "type": "object", "required": ["id", "engine", "dv_m_s", "at", "approval", "verdict_now"],
+            "properties": {"id": {"type": "integer"}, "engine": STR, "dv_m_s": NUM, "at": ISO,
+                           "approval": {"type": "string", "enum": ["approved", "rejected", "stale", "none"]},
+                           "verdict_now": {"anyOf": [VERDICT, {"type": "null"}]}}}},
+        "warnings": {"type": "array", "items": STR}, "warnings_count": {"type": "integer"},
+        "integrity": STR, "last_gauge_at": {"anyOf": [ISO, {"type": "null"}]},
+        "days_since_gauge": NUM_OR_NULL, "attention": {"type": "array", "items": STR},
+    },
+}
+FLEET = {
+    "$schema": "https://json-schema.org/draft/2020-12/schema", "type": "object",
+    "required": ["fleet", "source", "at", "margin_m_s", "sort", "attention_only", "summary", "craft", "caution"],
+    "properties": {
+        "fleet": STR, "source": {"type": "string", "enum": ["folder"]}, "at": ISO, "margin_m_s": NUM,
+        "sort": STR, "attention_only": {"type": "boolean"},
+        "summary": {"type": "object", "required": ["craft", "attention", "broken", "unreadable"],
+                    "additionalProperties": {"type": "integer"}},
+        "craft": {"type": "array", "items": FLEET_ROW}, "caution": STR,
+    },
+}

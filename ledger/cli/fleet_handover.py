@@ -1,0 +1,55 @@
+"""``propledger handover --fleet DIR``: one handover report over every craft of a folder of ledgers."""
+from __future__ import annotations
+
+import json
+import os
+import sys
+
+from ..errors import InputError, StoreError
+from ..services import fleet, fleet_handover
+from .common import plain, warn
+
+
+def _out_path(path: str | None, source: fleet.FolderSource, force: bool) -> str | None:
+    """--out checked against every ledger of the fleet (never a ledger, a side file or into the folder)."""
+    if path is None:
+        return None
+    from ..services.outpaths import checked  # noqa: PLC0415
+
+    target = checked(path, None, force=force)
+    if os.path.dirname(target) == os.path.realpath(source.folder):
+        raise InputError(f"--out: {target!r} is in the fleet folder (it would be read as a ledger or clash with "
+                         "a side file); choose a file outside it; nothing was written")
+    for member in source.members():
+        checked(path, member, force=force)
+    return target
+
+
+def cmd_fleet_handover(args) -> int:
+    source = fleet.FolderSource(args.fleet)
+    out = _out_path(args.out, source, args.force)
+    report = fleet_handover.assemble(source, from_name=args.from_name, to_name=args.to_name)
+    if not args.no_record:
+        fleet_handover.record(report, note=args.note)
+    if args.format == "json":
+        text = json.dumps(report, indent=2, allow_nan=False, default=str) + "\n"
+    else:
+        from ..reports.fleet import render  # noqa: PLC0415 - reports only when asked for
+
+        text = render(report, args.format)
+    if out is None:
+        sys.stdout.write(text)
+        sys.stdout.flush()
+    else:
+        from ..services.outpaths import write_atomic  # noqa: PLC0415
+
+        try:
+            write_atomic(out, text, force=args.force)
+        except (OSError, InputError, StoreError) as exc:
+            raise StoreError(f"writing the fleet report failed: {exc}") from None
+        print(f"wrote {plain(out)}", file=sys.stderr)
+    recorded = [p for p in report["craft"] if p["report"] and (p["report"].get("record") or {}).get("recorded")]
+    if not args.no_record:
+        print(f"recorded a handover entry in {len(recorded)} of {len(report['craft'])} ledgers", file=sys.stderr)
+    warn(report["warnings"])
+    return 1 if any((p["report"] or {}).get("record", {}).get("backup_failed") for p in report["craft"]) else 0

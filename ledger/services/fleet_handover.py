@@ -1,0 +1,61 @@
+"""The fleet's shift handover: per craft its fleet row and what changed since its last handover.
+
+Each craft's part is that craft's own handover (``services.handover.assemble``, the window since its
+previous handover), so the fleet report and the single-craft report say the same thing; the summary
+row is its fleet row (``services.fleet``). Recording appends a handover entry to every readable craft
+and backs each up, exactly as ``propledger handover`` does for one. A ledger that cannot be read is
+listed with its error and nothing is written to it.
+"""
+from __future__ import annotations
+
+from typing import Any
+
+from ..errors import InputError, LedgerError
+from . import fleet, handover
+from .ledger import Ledger
+from .records import clean_text
+from .timefmt import iso, now as clock
+from .views import CAUTION
+
+
+def assemble(source: fleet.FolderSource, *, from_name: str | None, to_name: str | None,
+             margin: float = fleet.DEFAULT_MARGIN_M_S, now: float | None = None,
+             workers: int = fleet.WORKERS) -> dict[str, Any]:
+    """The fleet handover as plain data; reads only (``record`` writes). The names are checked first, the
+    way the single-craft handover checks them, so a missing name is one error, not one per craft."""
+    names = {}
+    for key, value in (("from", from_name), ("to", to_name)):
+        names[key] = clean_text(value, f"--{key}")
+        if not names[key]:
+            raise InputError(f"handover: --{key} is required (the name of the engineer)")
+    end = clock() if now is None else float(now)
+    rows = fleet.view(fleet.rows(source, workers=workers), margin=margin, now=end)
+    craft = []
+    for row in rows:
+        part: dict[str, Any] = {"row": row, "report": None, "error": row["error"]}
+        if row["state"] != "unreadable":
+            try:
+                part["report"] = handover.assemble(Ledger(row["ledger"]), from_name=names["from"],
+                                                   to_name=names["to"], now=end)
+            except LedgerError as exc:
+                part["error"] = str(exc)
+        craft.append(part)
+    return {"title": "Fleet handover", "fleet": source.label, "generated": iso(round(end)),
+            "from": names["from"], "to": names["to"], "margin_m_s": margin, "summary": fleet.summary(rows),
+            "craft": craft, "warnings": [], "caution": CAUTION}
+
+
+def record(report: dict[str, Any], *, note: str | None = None) -> dict[str, Any]:
+    """Append a handover entry to every craft whose report was assembled, then back each up."""
+    for part in report["craft"]:
+        if part["report"] is None:
+            continue
+        try:
+            handover.record(Ledger(part["row"]["ledger"]), part["report"], note=note)
+        except LedgerError as exc:
+            part["error"] = f"handover not recorded: {exc}"
+            report["warnings"].append(f"{part['row']['craft']}: handover not recorded: {exc}")
+            continue
+        if part["report"]["record"].get("backup_failed"):
+            report["warnings"].append(f"{part['row']['craft']}: {part['report']['warnings'][-1]}")
+    return report

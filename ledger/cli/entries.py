@@ -20,6 +20,7 @@ def register(sub) -> None:
     amount.add_argument("--dv", help="achieved delta-v, e.g. '1.8 m/s' (a bare number is m/s)")
     amount.add_argument("--duration", help="burn duration, e.g. '95 s' or '1.5 min' (propellant = thrust/(Isp g0) x duration)")
     amount.add_argument("--propellant", help="propellant used, e.g. '2.4 kg' or '5.3 lbm'")
+    add_pulses(amount, p)
     p.add_argument("--plan", help="id of the pending plan this burn executes, e.g. 12")
     add_sigma(p)
     add_write_options(p)
@@ -42,6 +43,7 @@ def register(sub) -> None:
     amount = p.add_mutually_exclusive_group(required=True)
     amount.add_argument("--duration", help="total thruster on-time, e.g. '40 s' or '3 min'")
     amount.add_argument("--propellant", help="propellant used, e.g. '0.2 kg'")
+    add_pulses(amount, p)
     add_sigma(p, "'2 s' with --duration")
     add_write_options(p)
     p.set_defaults(func=cmd_use)
@@ -67,6 +69,22 @@ def register(sub) -> None:
 DIMENSION = {"dv": "speed", "duration": "time", "propellant": "mass", "delta": "mass"}
 
 
+def add_pulses(amount, p) -> None:
+    """--pulses N (one of the amounts) with --on-time T per pulse (services.pulses)."""
+    amount.add_argument("--pulses", help="a pulse train: number of pulses, e.g. 1200 (with --on-time; "
+                                         "propellant = pulses x on-time x thrust/(Isp g0))")
+    p.add_argument("--on-time", dest="on_time", help="on-time of each pulse with --pulses, e.g. '50 ms'")
+
+
+def _pulses(args) -> dict:
+    """The pulse-train fields of a burn or use, or nothing (one-line errors from services.pulses)."""
+    if getattr(args, "pulses", None) is None and getattr(args, "on_time", None) is None:
+        return {}
+    from ..services.pulses import parse_count  # noqa: PLC0415
+
+    return {"pulses": parse_count(args.pulses), "on_time": qty(args.on_time, "time", "--on-time")}
+
+
 def add_sigma(p, example: str = "'0.02 m/s' with --dv") -> None:
     p.add_argument("--sigma", help="one standard deviation of the amount, in the amount's dimension "
                                    f"(e.g. {example}); default: see docs/uncertainty.md")
@@ -85,6 +103,11 @@ def sigma(args, field: str | None) -> float | None:
 
 def _given(args, fields=("dv", "duration", "propellant", "delta")) -> str | None:
     return next((f for f in fields if getattr(args, f, None) is not None), None)
+
+
+def _train(args) -> str | None:
+    """A pulse train's --sigma is in seconds of its total on-time (it is stored as a duration)."""
+    return "duration" if getattr(args, "pulses", None) is not None else None
 
 
 def _report(stored: dict, warnings: list[str], as_json: bool) -> int:
@@ -120,7 +143,7 @@ def cmd_burn(args) -> int:
     return _record(args, BURN, {"engine": args.engine, "dv": qty(args.dv, "speed", "--dv"),
                                 "duration": qty(args.duration, "time", "--duration"),
                                 "propellant": qty(args.propellant, "mass", "--propellant"), "plan": args.plan,
-                                "sigma": sigma(args, _given(args))})
+                                "sigma": sigma(args, _given(args) or _train(args)), **_pulses(args)})
 
 
 def cmd_plan(args) -> int:
@@ -135,7 +158,7 @@ def cmd_mass(args) -> int:
 def cmd_use(args) -> int:
     return _record(args, USE, {"engine": args.engine, "duration": qty(args.duration, "time", "--duration"),
                                "propellant": qty(args.propellant, "mass", "--propellant"),
-                               "sigma": sigma(args, _given(args))})
+                               "sigma": sigma(args, _given(args) or _train(args)), **_pulses(args)})
 
 
 def cmd_withdraw(args) -> int:

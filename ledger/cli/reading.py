@@ -174,7 +174,8 @@ def cmd_log(args) -> int:
 
 
 SI_KEYS = {"dv": "dv_m_s", "duration": "duration_s", "propellant": "propellant_kg", "delta": "delta_kg",
-           "pressure": "pressure_pa", "temperature": "temperature_k", "volume": "volume_m3"}
+           "pressure": "pressure_pa", "temperature": "temperature_k", "volume": "volume_m3",
+           "on_time": "on_time_s"}
 """Stored SI fields renamed so each key names its unit (the stored record keeps the short names)."""
 
 

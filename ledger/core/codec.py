@@ -25,6 +25,10 @@ def craft_to_dict(craft: Craft) -> dict[str, Any]:
             d["isp_sigma_s"] = e.isp_sigma_s
         if e.thrust_sigma_n is not None:
             d["thrust_sigma_n"] = e.thrust_sigma_n
+        if e.pulse_isp_factor != 1.0:
+            d["pulse_isp_factor"] = e.pulse_isp_factor
+        if e.life:
+            d["life"] = dict(e.life)
         return d
 
     out: dict[str, Any] = {
@@ -57,6 +61,8 @@ def craft_from_dict(d: dict[str, Any]) -> Craft:
             id=e["id"], isp_s=float(e["isp_s"]), thrust_n=float(e["thrust_n"]), cant_deg=float(e.get("cant_deg", 0.0)),
             feeds={k: float(v) for k, v in e["feeds"].items()},
             isp_sigma_s=e.get("isp_sigma_s"), thrust_sigma_n=e.get("thrust_sigma_n"),
+            pulse_isp_factor=float(e.get("pulse_isp_factor", 1.0)),
+            life={k: float(v) for k, v in e["life"].items()} if e.get("life") else None,
         )
 
     return Craft(

@@ -45,6 +45,10 @@ class Engine:
     cant_deg: float = 0.0
     isp_sigma_s: float | None = None
     thrust_sigma_n: float | None = None
+    pulse_isp_factor: float = 1.0
+    """Pulse-mode Isp as a share of steady state (craft file ``pulse: {isp_factor: 0.75}``); 1 = none given."""
+    life: Mapping[str, float] | None = None
+    """Qualified life limits (``pulses``, ``throughput_kg``, ``on_time_s``), any of them; None = none given."""
 
     @property
     def ve(self) -> float:

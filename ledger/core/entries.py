@@ -25,6 +25,10 @@ EVENT_KINDS = frozenset((BURN, USE, MASS, REBASELINE))
 itself); a re-baseline sets one tank's bookkeeping to an adopted value from its ``at`` on."""
 AMOUNT_FIELDS = ("dv", "duration", "propellant")
 """Fields of a burn or use in SI: dv in m/s, duration in s, propellant in kg (exactly one is set)."""
+PULSE_FIELDS = ("pulses", "on_time")
+"""A pulse train: pulse count and on-time per pulse (s). It is stored with ``duration`` = pulses x on_time,
+so every consumer of durations treats it as a timed firing; the pulse fields add the count (thruster
+life) and the pulse-mode Isp for the delta-v it delivers (core.replay)."""
 
 
 class Entry(NamedTuple):
@@ -102,7 +106,7 @@ def apply_correction(entry: Entry, changes: Mapping[str, Any]) -> Entry:
             if key in AMOUNT_FIELDS:
                 if data.get(key) is None and "sigma" not in changes:
                     data.pop("sigma", None)
-                for other in AMOUNT_FIELDS:
+                for other in AMOUNT_FIELDS + PULSE_FIELDS:
                     data.pop(other, None)
             data[key] = value
     return entry._replace(at=at, note=note, data=data)

@@ -31,6 +31,7 @@ class Steps:
     amount: np.ndarray    # float64: dv (m/s) for SCALE, kg for DRAW, signed kg for MASS, adopted kg for REBASE
     is_burn: np.ndarray   # bool: a burn (delivers delta-v) rather than a use or mass change
     tank: np.ndarray | None = None  # int32: the re-baselined tank for REBASE steps, -1 otherwise
+    isp_factor: np.ndarray | None = None  # float64: pulse-mode Isp share of a pulse train's step, 1 otherwise
 
 
 _NAN = float("nan")
@@ -81,7 +82,22 @@ def steps_from_events(craft: Craft, events: Sequence[Entry]) -> Steps:
     tank = np.full(n, -1, dtype=np.int32)
     for i in np.flatnonzero(is_rebase).tolist():
         tank[i] = tanks[datas[i]["tank"]]
-    return Steps(kind, engine, amount, is_burn, tank)
+    return Steps(kind, engine, amount, is_burn, tank, pulse_isp_factors(craft, datas, engine))
+
+
+def pulse_isp_factors(craft: Craft, datas: Sequence[Mapping[str, Any]], engine: np.ndarray) -> np.ndarray | None:
+    """Per step, the share of steady-state Isp a pulse train delivers (engine ``pulse_isp_factor``), else 1.
+
+    Interpretation (issue 12, point 3): a pulse train of N pulses of on-time T is stored as a timed firing
+    of duration N x T (core.entries.PULSE_FIELDS), so it draws N x T x mass flow like any timed firing (the
+    flow the valve passes while open: thrust/(Isp g0) at steady state, or the feed-pressure model's where
+    one is given). The impulse that flow delivers is lower in pulse mode, so a pulse *burn* delivers
+    delta-v = isp_factor x ve x ln(m_before/m_after). None when the ledger holds no pulse train."""
+    if not any(d.get("pulses") is not None for d in datas):
+        return None
+    factors = np.array([e.pulse_isp_factor for e in craft.engines] + [1.0])
+    pulsed = np.fromiter((d.get("pulses") is not None for d in datas), dtype=bool, count=len(datas))
+    return np.where(pulsed, factors[engine], 1.0)
 
 
 @dataclass(frozen=True)
@@ -181,6 +197,8 @@ def replay(craft: Craft, events: Sequence[Entry], steps: Steps | None = None) ->
     before = np.concatenate(([m0], after[:-1])) if n else np.empty(0)
     with np.errstate(divide="ignore", invalid="ignore"):
         dv = np.where(steps.is_burn, ve[np.maximum(steps.engine, 0)] * np.log(before / after), 0.0)
+    if steps.isp_factor is not None:  # pulse trains deliver the pulse-mode Isp (pulse_isp_factors)
+        dv = dv * steps.isp_factor
     final_mass = float(after[-1]) if n else m0
     final_remaining = remaining[-1].copy() if n else loads.copy()
     return Replay(before, after, prop, dv, drawn, remaining, final_mass, final_remaining, adjusted)

@@ -20,7 +20,7 @@ import numpy as np
 
 from .craft import Craft
 from .entries import BURN, MASS, REBASELINE, Entry
-from .sigmas import entry_sigmas
+from .sigmas import entry_sigma, entry_sigmas
 
 _CODE = {"dv": 0, "duration": 1, "propellant": 2, "delta": 3}
 
@@ -63,6 +63,8 @@ def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
             field = ("dv" if kind == BURN and d.get("dv") is not None else
                      "duration" if d.get("duration") is not None else "propellant")
         given = d.get("sigma")
+        if given is None and d.get("pulses") is not None and field == "duration":
+            given = entry_sigma(d, field)  # a pulse train's own default (core.sigmas)
         rows.append((field, e, d[field], np.nan if given is None else given))
     fields_, engine_, amount_, given_ = zip(*rows) if rows else ((), (), (), ())
     code = np.array([_CODE[f] for f in fields_], dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass

@@ -36,6 +36,9 @@ ENTRY_DEFAULTS: dict[str, Default] = {
     "duration": Default(0.01, "firing-to-firing repeatability of the flow on top of the engine's own "
                               "thrust/Isp bias (worse in pulse mode, docs/sources.md §4); 1 % is a project choice "
                               "[practice]"),
+    "pulses": Default(0.03, "a pulse train's total on-time: short pulses repeat worse than steady firing (flow-"
+                            "model bias 1-3 %, worse in pulse mode, docs/sources.md §4 [memory]); the top of that "
+                            "range is taken, common practice [practice]"),
     "propellant": Default(0.01, "propellant quoted from gauging, PVT 1.0 % at beginning of life (Shaik et al., "
                                 "Aerospace 10(6):567, 2023) [read]"),
     "delta": Default(0.001, "a separated or added item is weighed like the craft, ~0.1 % (docs/sources.md §4) "
@@ -71,6 +74,8 @@ def entry_sigma(data: Mapping[str, Any], field: str) -> float:
     given = data.get("sigma")
     if given is not None:
         return float(given)
+    if field == "duration" and data.get("pulses") is not None:  # a pulse train: its own default, in seconds
+        return abs(float(data[field])) * ENTRY_DEFAULTS["pulses"].relative
     return abs(float(data[field])) * ENTRY_DEFAULTS[field].relative
 
 

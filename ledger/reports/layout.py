@@ -127,6 +127,24 @@ def _state(r: Mapping[str, Any]) -> list[Block]:
     return out
 
 
+LIFE_WORD = {"pulses": "pulses", "throughput_kg": "throughput", "on_time_s": "on-time"}
+
+
+def _thrusters(r: Mapping[str, Any]) -> list[Block]:
+    """Per-thruster totals over the ledger against the craft file's qualified life (services.pulses)."""
+    rows_in = r.get("thrusters") or []
+    if not rows_in:
+        return []
+    rows = tuple((t["engine"], num(t["on_time_s"], 1), f"{t['pulses']:,}", num(t["throughput_kg"], 3),
+                  ", ".join(f"{LIFE_WORD.get(k, k)} {100 * v:.0f} %" for k, v in t.get("life_used", {}).items())
+                  or NONE) for t in rows_in)
+    return [Block("heading", "Thruster totals"),
+            Block("table", headers=("engine", "on-time s", "pulses", "throughput kg", "qualified life used"),
+                  rows=rows, align="lrrrl"),
+            Block("para", "On-time as recorded for timed and pulse firings (steady-state equivalent for firings "
+                          "logged by delta-v or propellant); life limits from the craft file; a warning at 80 %.")]
+
+
 def _forecast(r: Mapping[str, Any]) -> list[Block]:
     fc = r.get("forecast") or {}
     out = [Block("heading", "Lifetime at routine rates")]
@@ -195,5 +213,6 @@ def _tail(r: Mapping[str, Any]) -> list[Block]:
 
 def blocks(report: Mapping[str, Any]) -> list[Block]:
     """The whole handover, in reading order."""
-    return (_header(report) + _burns(report) + _others(report) + _state(report) + _forecast(report)
+    return (_header(report) + _burns(report) + _others(report) + _state(report) + _thrusters(report)
+            + _forecast(report)
             + _plans(report) + _tail(report))

@@ -210,7 +210,8 @@ def craft_from_document(doc: Any, src: str) -> Craft:
         engines.append(Engine(id=f.text("id"), isp_s=f.qty("isp", "time", positive=True),
                               thrust_n=f.qty("thrust", "force", positive=True), feeds=feeds, cant_deg=cant,
                               isp_sigma_s=f.qty("isp_sigma", "time", required=False),
-                              thrust_sigma_n=f.qty("thrust_sigma", "force", required=False)))
+                              thrust_sigma_n=f.qty("thrust_sigma", "force", required=False),
+                              **_pulse_and_life(src, node, f"engines[{i}]")))
     _unique(src, "engines", [e.id for e in engines])
     engine_ids = {e.id for e in engines}
 
@@ -286,6 +287,42 @@ def _approval_rule(src: str, node: Any) -> dict[str, float | int]:
                          f"got {shown(n)}")
     above = _Fields(src, node, where).qty("above_dv", "speed", 0.0)
     return {"approvers": n, "above_dv_m_s": above}
+
+
+LIFE_KEYS = {"pulses": ("pulses", None), "throughput": ("throughput_kg", "mass"), "on_time": ("on_time_s", "time")}
+"""``life:`` keys of an engine -> (stored key, dimension; None for a plain count)."""
+
+
+def _pulse_and_life(src: str, node: Mapping, where: str) -> dict[str, Any]:
+    """An engine's ``pulse: {isp_factor: 0.75}`` and ``life: {pulses: 300000, throughput: 120 kg,
+    on_time: 50 h}`` (each optional): the pulse-mode Isp share and the qualified life limits."""
+    out: dict[str, Any] = {}
+    if node.get("pulse") is not None:
+        p = _Fields(src, node["pulse"], f"{where}.pulse")
+        factor = p.node.get("isp_factor")
+        if isinstance(factor, bool) or not isinstance(factor, (int, float)) or not 0 < float(factor) <= 1:
+            raise InputError(f"{p.at('isp_factor')}: expected the pulse-mode Isp as a share of steady state, "
+                             f"above 0 and at most 1 (e.g. 0.75), got {shown(factor)}")
+        out["pulse_isp_factor"] = float(factor)
+    if node.get("life") is not None:
+        f = _Fields(src, node["life"], f"{where}.life")
+        unknown = sorted(set(map(str, f.node)) - set(LIFE_KEYS))
+        if unknown or not f.node:
+            raise InputError(f"{f.at(unknown[0] if unknown else 'pulses')}: expected life limits from "
+                             f"{', '.join(LIFE_KEYS)} (e.g. {{pulses: 300000, throughput: 120 kg}})")
+        life = {}
+        for key, (stored, dim) in LIFE_KEYS.items():
+            if key not in f.node:
+                continue
+            if dim is None:
+                value = f.node[key]
+                if isinstance(value, bool) or not isinstance(value, int) or not 0 < value < 2**53:
+                    raise InputError(f"{f.at(key)}: expected a whole number of pulses above 0, got {shown(value)}")
+                life[stored] = float(value)
+            else:
+                life[stored] = f.qty(key, dim, positive=True)
+        out["life"] = life
+    return out
 
 
 def load_craft(path: str) -> Craft:

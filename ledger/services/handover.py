@@ -91,6 +91,13 @@ def _plans(snap: Snapshot, status: Mapping[str, Any], end: float) -> tuple[list[
     return rows, warnings
 
 
+def _thrusters(snap: Snapshot) -> list[dict[str, Any]]:
+    """Per engine: on-time, pulses and throughput over the ledger against its life limits (services.pulses)."""
+    from .pulses import totals  # noqa: PLC0415
+
+    return totals(snap.craft, snap.resolved.events, snap.replay)
+
+
 def _status_with_bounds(snap) -> dict[str, Any]:
     """Status with its low bounds and approval states (the Monte Carlo, cached by chain head); the plain
     status with a warning if the sampling cannot run, so a handover is never blocked by it."""
@@ -137,7 +144,7 @@ def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, sinc
         "from": names["from"], "to": names["to"], "window": win,
         "burns": burns, "other_entries": others, "state": _state(status),
         "forecast": forecast(snap, status, now=end, series=True),
-        "plans": plans, "gauge": gauge, "warnings": warnings,
+        "plans": plans, "gauge": gauge, "warnings": warnings, "thrusters": _thrusters(snap),
         "integrity": {"status": status["integrity"], "intact": snap.integrity is None,
                       "entries": len(snap.entries), "head_seq": head_seq, "head_hash": head_hash},
         "record": {"recorded": False},

@@ -55,6 +55,8 @@ def is_late(e: Entry, shown: Entry, start: float, end: float) -> bool:
 def _source(data: Mapping[str, Any]) -> str:
     if data.get("dv") is not None:
         return "logged dv"
+    if data.get("pulses") is not None and data.get("duration") is not None:
+        return f"from {int(data['pulses'])} pulses of {data['on_time']:.3f} s (pulse-mode Isp)"
     if data.get("duration") is not None:
         return f"from duration {data['duration']:.3f} s"
     return f"from propellant {data['propellant']:.4f} kg"

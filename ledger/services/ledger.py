@@ -83,6 +83,10 @@ def _warnings(craft: Craft, events: Sequence[Entry], rep: Replay, state: cap.Sta
             out.append(f"engine {e.engine}: reserves can no longer be met (dv free 0); limiting tank {e.limiting_tank}")
     if state.mass_kg <= 0:
         out.append("craft mass is zero or negative: the mass changes recorded exceed the craft")
+    if any(e.life for e in craft.engines):  # qualified thruster life (services.pulses)
+        from .pulses import life_warnings, totals  # noqa: PLC0415
+
+        out.extend(life_warnings(totals(craft, events, rep)))
     return out
 
 

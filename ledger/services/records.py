@@ -10,7 +10,7 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from ..core.craft import Craft
-from ..core.entries import (AMOUNT_FIELDS, APPROVE, BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, REJECT,
+from ..core.entries import (AMOUNT_FIELDS, PULSE_FIELDS, APPROVE, BURN, CORRECT, GAUGE, HANDOVER, MASS, PLAN, REBASELINE, REJECT,
                             USE, WITHDRAW, Entry, Resolved)
 from ..errors import InputError
 from .timefmt import iso, parse_time
@@ -94,6 +94,18 @@ def _one_amount(data: Mapping[str, Any], allowed: tuple[str, ...], what: str) ->
     return {key: value}
 
 
+def _amount_or_pulses(data: Mapping[str, Any], allowed: tuple[str, ...], what: str) -> dict[str, Any]:
+    """One amount, or a pulse train (pulses, on_time) stored with its total on-time as ``duration``."""
+    if all(data.get(k) is None for k in PULSE_FIELDS):
+        return _one_amount(data, allowed, what)
+    other = next((k for k in allowed if data.get(k) is not None), None)
+    if other is not None:
+        raise InputError(f"{what}: give exactly one of {' | '.join(f'--{k}' for k in allowed)} | --pulses")
+    from .pulses import pulse_train  # noqa: PLC0415
+
+    return pulse_train(data.get("pulses"), data.get("on_time"))
+
+
 def plan_ref(resolved: Resolved, ref: Any, what: str) -> int:
     """The seq of a pending plan named by ``ref`` ('12' or '#12'); InputError otherwise."""
     return _plan_ref(resolved, ref, what)
@@ -151,7 +163,7 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
     """The SI payload of a new entry, checked against the craft and the ledger; raises InputError."""
     if kind == BURN:
         out: dict[str, Any] = {"engine": _engine(craft, data.get("engine"))}
-        out.update(_one_amount(data, AMOUNT_FIELDS, "burn"))
+        out.update(_amount_or_pulses(data, AMOUNT_FIELDS, "burn"))
         if data.get("plan") is not None:
             out["plan"] = _plan_ref(resolved, data["plan"], "an executed burn", executing=True)
         return _sigma(out, data)
@@ -161,7 +173,7 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
         return out
     if kind == USE:
         out = {"engine": _engine(craft, data.get("engine"))}
-        out.update(_one_amount(data, ("duration", "propellant"), "use"))
+        out.update(_amount_or_pulses(data, ("duration", "propellant"), "use"))
         return _sigma(out, data)
     if kind == MASS:
         if data.get("delta") is None:

@@ -1,7 +1,7 @@
 """Bundled scenarios: a craft file with a ``history`` list, loaded into a fresh ledger in one write.
 
-History items use the command line's vocabulary (kind, at, engine, dv/duration/propellant, delta, plan,
-by, note); ``ref`` names a plan so later items can refer to it, and ``repeat``/``every`` expand one item
+History items use the command line's vocabulary (kind, at, engine, dv/duration/propellant or
+pulses/on_time, delta, plan, by, note); ``ref`` names a plan so later items can refer to it, and ``repeat``/``every`` expand one item
 into many evenly spaced entries (thousands of short thruster firings).
 """
 from __future__ import annotations
@@ -56,6 +56,10 @@ def _item_data(item: dict[str, Any], where: str, refs: dict[str, int]) -> dict[s
     for key, dim in DIMENSION.items():
         if item.get(key) is not None:
             data[key] = parse_quantity(item[key], dim, f"{where}.{key}")
+    if item.get("pulses") is not None or item.get("on_time") is not None:  # a pulse train (services.pulses)
+        data["pulses"] = item.get("pulses")
+        data["on_time"] = None if item.get("on_time") is None else parse_quantity(item["on_time"], "time",
+                                                                                   f"{where}.on_time")
     if item.get("delta") is not None:
         data["delta"] = parse_quantity(item["delta"], "mass", f"{where}.delta", signed=True)
     if item.get("plan") is not None:

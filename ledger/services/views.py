@@ -102,6 +102,8 @@ def _amount(data) -> str:
         return f"{data.get('tank')} = {data['remaining_kg']:.3f} kg"
     if data.get("dv") is not None:
         return f"{data['dv']:.3f} m/s"
+    if data.get("pulses") is not None and data.get("duration") is not None:
+        return f"{int(data['pulses'])} x {data['on_time']:.3f} s pulses"
     if data.get("duration") is not None:
         return f"{data['duration']:.3f} s"
     if data.get("propellant") is not None:

@@ -5,7 +5,7 @@ here, so a plan that fails its check at the ledger's confidence is a warning eve
 """
 from __future__ import annotations
 
-from typing import Any, Iterable, Mapping
+from typing import Any, Iterable, Mapping, Sequence
 
 FLAGGED = ("infeasible", "marginal")
 """Verdicts that make a pending plan a warning: infeasible (reserves broken even at nominal values) and
@@ -45,4 +45,28 @@ def combined(replay_warnings: Iterable[str], pending: Iterable[Mapping[str, Any]
     return out
 
 
-__all__ = ["FLAGGED", "plan_warning", "plan_warnings", "combined"]
+LIFE_WARN_SHARE = 0.8
+"""Share of a qualified thruster life limit at which a warning is raised (80 %: a project choice; warning
+ahead of a consumable life limit is common practice)."""
+LIFE_LABEL = {"pulses": "pulses", "throughput_kg": "throughput", "on_time_s": "on-time"}
+
+
+def life_warnings(rows: Sequence[Mapping[str, Any]], share: float = LIFE_WARN_SHARE) -> list[str]:
+    """'engine rcs: 82 % of its qualified pulses used (246,000 of 300,000)' for every limit at or past
+    ``share``."""
+    out = []
+    for r in rows:
+        for key, used in r.get("life_used", {}).items():
+            if used >= share:
+                limit = r["life"][key]
+                value = r["pulses"] if key == "pulses" else r[key]
+                shown = {"pulses": f"{value:,.0f} of {limit:,.0f}",
+                         "throughput_kg": f"{value:,.3f} kg of {limit:,.3f} kg",
+                         "on_time_s": f"{value:,.1f} s of {limit:,.1f} s"}[key]
+                past = " (past the limit)" if used > 1 else ""
+                out.append(f"engine {r['engine']}: {100 * used:.0f} % of its qualified {LIFE_LABEL[key]} "
+                           f"used ({shown}){past}")
+    return out
+
+
+__all__ = ["LIFE_WARN_SHARE", "life_warnings", "FLAGGED", "plan_warning", "plan_warnings", "combined"]

@@ -266,6 +266,15 @@ class LedgerConsole(App):
             self.push_screen(AlertsDialog(chain, notes + [w for w in shown_warnings(status, self.lows.result)
                                                            if not w.startswith("INTEGRITY")]))
 
+    def open_engines(self) -> None:
+        """Engine detail: thruster totals against qualified life (services.pulses)."""
+        if self.snap is not None:
+            from ..services.pulses import totals  # noqa: PLC0415
+            from .dialogs.engines import EnginesDialog  # noqa: PLC0415
+
+            snap = self.snap
+            self.push_screen(EnginesDialog(snap.craft, totals(snap.craft, snap.resolved.events, snap.replay)))
+
     def open_detail(self, seq: int) -> None:
         d = browse.detail(self.snap, self.ix, seq, self.live.record_of(seq))
         plan = seq if d["kind"] == "plan" else d.get("data", {}).get("plan") if d["kind"] in ("approve", "reject") \

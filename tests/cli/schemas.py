@@ -6,9 +6,11 @@ NUM = {"type": "number"}
 STR = {"type": "string"}
 ISO = {"type": "string", "pattern": r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(\.\d+)?Z$"}
 HASH = {"type": "string", "pattern": "^[0-9a-f]{64}$"}
-SI_DATA = {"type": "object", "properties": {k: NUM for k in (
-    "dv_m_s", "duration_s", "propellant_kg", "delta_kg", "pressure_pa", "temperature_k")},
-    "not": {"anyOf": [{"required": [k]} for k in ("dv", "duration", "propellant", "delta")]}}
+SI_DATA = {"type": "object", "properties": {**{k: NUM for k in (
+    "dv_m_s", "duration_s", "propellant_kg", "delta_kg", "pressure_pa", "temperature_k", "on_time_s")},
+    "pulses": {"type": "integer", "minimum": 1}},
+    "dependentRequired": {"pulses": ["on_time_s", "duration_s"]},
+    "not": {"anyOf": [{"required": [k]} for k in ("dv", "duration", "propellant", "delta", "on_time")]}}
 
 LOG_ROW = {
     "type": "object",

@@ -15,7 +15,7 @@ from ...services.views import CAUTION
 from .. import fmt
 from .detail_fields import data_lines
 
-UNITS = {"dv": "m/s", "duration": "s", "propellant": "kg", "delta": "kg"}
+UNITS = {"dv": "m/s", "duration": "s", "propellant": "kg", "delta": "kg", "on_time": "s per pulse"}
 
 
 def detail_text(d: dict[str, Any]) -> Text:

@@ -47,7 +47,8 @@ class EntryForm(FormDialog):
 class BurnForm(EntryForm):
     KIND = BURN
     TITLE = "▲ Log an executed burn"
-    HINT = "Amount as delta-v ('1.8 m/s'), duration ('95 s', '3 min') or propellant ('2.4 kg')."
+    HINT = ("Amount as delta-v ('1.8 m/s'), duration ('95 s', '3 min'), propellant ('2.4 kg') or pulses "
+            "('1200 x 50 ms').")
     FOCUS = "amount"
 
     def make_fields(self) -> list[Field]:
@@ -72,7 +73,7 @@ class BurnForm(EntryForm):
 
     def commit(self, values: dict[str, Any]) -> Any:
         key, amount = values["amount"]
-        data = {"engine": values["engine"], key: amount, "plan": values.get("plan")}
+        data = {"engine": values["engine"], **fields.amount_data(key, amount), "plan": values.get("plan")}
         return self.write(data, values)
 
 
@@ -118,21 +119,22 @@ class MassForm(EntryForm):
 class UseForm(EntryForm):
     KIND = USE
     TITLE = "• Log other propellant use"
-    HINT = "Propellant used without delta-v (attitude control, venting): a duration or a mass."
+    HINT = ("Propellant used without delta-v (attitude control, venting): a duration, a mass or pulses "
+            "('1200 x 50 ms').")
     FOCUS = "amount"
 
     def make_fields(self) -> list[Field]:
         return [
             engine_field(self.snap, self.snap.craft.engine_ids[-1]),  # thrusters are usually listed last
             Field("amount", "amount", lambda s: fields.amount(s, ("duration", "propellant")),
-                  "e.g. 40 s or 0.2 kg", required=True),
+                  "e.g. 40 s, 0.2 kg or 1200 x 50 ms", required=True),
             Field("at", "when", fields.when, WHEN_HINT),
             *common_tail(),
         ]
 
     def commit(self, values: dict[str, Any]) -> Any:
         key, amount = values["amount"]
-        return self.write({"engine": values["engine"], key: amount}, values)
+        return self.write({"engine": values["engine"], **fields.amount_data(key, amount)}, values)
 
 
 class WithdrawForm(EntryForm):
@@ -190,7 +192,10 @@ class CorrectForm(EntryForm):
             return (("delta", v) if v is not None else None), msg
         allowed = ("dv",) if target is not None and target.kind == PLAN else (
             ("duration", "propellant") if target is not None and target.kind == USE else ("dv", "duration", "propellant"))
-        return fields.amount(text, allowed, required=False)
+        parsed, msg = fields.amount(text, allowed, required=False)
+        if parsed is not None and parsed[0] == "pulses":  # not correctable (services.ledger.CORRECTABLE)
+            return None, "a correction takes the total on-time as a duration ('60 s'), not pulses"
+        return parsed, msg
 
     def field_changed(self, name: str) -> None:
         if name != "entry":

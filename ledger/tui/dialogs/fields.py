@@ -21,9 +21,34 @@ _BARE = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*$")
 Parsed = tuple[Any, str | None]
 
 
+_TRAIN = re.compile(r"^\s*(\S+)\s*(?:pulses?\s*)?(?:x|×|\*|of)\s*(.+?)\s*$", re.IGNORECASE)
+
+
+def pulse_train(text: str) -> Parsed:
+    """('pulses', (N, on-time s)) for '1200 x 50 ms' (also '1200 pulses x 50 ms', '1200 × 0.05 s')."""
+    from ...services.pulses import pulse_train as checked  # noqa: PLC0415
+
+    m = _TRAIN.match(text)
+    count, on_time = m.group(1), m.group(2)
+    try:
+        seconds = parse_quantity(on_time, "time", "on-time")
+        train = checked(count, seconds)
+    except InputError as exc:
+        return None, str(exc).replace("--pulses", "pulses").replace("--on-time", "on-time")
+    return ("pulses", (train["pulses"], train["on_time"])), None
+
+
+def amount_data(key: str, value: Any) -> dict[str, Any]:
+    """A parsed amount as entry data: a pulse train gives pulses and on_time, any other amount its key."""
+    return {"pulses": value[0], "on_time": value[1]} if key == "pulses" else {key: value}
+
+
 def amount(text: str, allowed=("dv", "duration", "propellant"), required: bool = True) -> Parsed:
-    """(key, SI value) for the first of ``allowed`` whose dimension the unit matches."""
+    """(key, SI value) for the first of ``allowed`` whose dimension the unit matches; where a duration is
+    allowed, a pulse train 'N x on-time' too (key 'pulses', value (N, on-time s))."""
     text = (text or "").strip()
+    if "duration" in allowed and _TRAIN.match(text) and not _BARE.match(text):
+        return pulse_train(text)
     hint = ", ".join(f"{AMOUNT_HINT[k]} for {k}" for k in allowed)
     if not text:
         return None, (f"required: a number with a unit ({hint})" if required else None)

@@ -107,6 +107,12 @@ class EngineTable(Widget):
         self.engines, self.reserves, self.forecast, self.summary = engines, reserves, forecast or [], summary
         self.refresh(layout=True)
 
+    def on_click(self) -> None:
+        """A click opens the engine detail (key e): totals against qualified life."""
+        opener = getattr(self.app, "open_engines", None)
+        if opener is not None:
+            opener()
+
     def get_content_height(self, container, viewport, width: int) -> int:
         wide = width >= 56
         extra = (1 if self.reserves else 0) + (1 if self.summary else 0) if wide else 0

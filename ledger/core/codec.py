@@ -25,6 +25,8 @@ def craft_to_dict(craft: Craft) -> dict[str, Any]:
             d["isp_sigma_s"] = e.isp_sigma_s
         if e.thrust_sigma_n is not None:
             d["thrust_sigma_n"] = e.thrust_sigma_n
+        if e.mixture_ratio_sigma is not None:
+            d["mixture_ratio_sigma"] = e.mixture_ratio_sigma
         return d
 
     out: dict[str, Any] = {
@@ -57,6 +59,7 @@ def craft_from_dict(d: dict[str, Any]) -> Craft:
             id=e["id"], isp_s=float(e["isp_s"]), thrust_n=float(e["thrust_n"]), cant_deg=float(e.get("cant_deg", 0.0)),
             feeds={k: float(v) for k, v in e["feeds"].items()},
             isp_sigma_s=e.get("isp_sigma_s"), thrust_sigma_n=e.get("thrust_sigma_n"),
+            mixture_ratio_sigma=e.get("mixture_ratio_sigma"),
         )
 
     return Craft(

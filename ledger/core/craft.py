@@ -45,6 +45,16 @@ class Engine:
     cant_deg: float = 0.0
     isp_sigma_s: float | None = None
     thrust_sigma_n: float | None = None
+    mixture_ratio_sigma: float | None = None
+    """One sigma of the mixture ratio as flown: the first feed's mass parts over the second's (two feeds only)."""
+
+    @property
+    def mixture_ratio(self) -> float | None:
+        """The first feed's mass parts over the second's, for an engine with exactly two feeds."""
+        if len(self.feeds) != 2:
+            return None
+        first, second = self.feeds.values()
+        return first / second
 
     @property
     def ve(self) -> float:

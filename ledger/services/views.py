@@ -40,6 +40,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
             for e in snap.engines
         },
         "reserves": reserves,
+        "mixture_outage": mixture_outage(snap),
         "pending_plans": [plan_row(p) for p in snap.resolved.pending],
         "integrity": "intact" if snap.integrity is None else str(snap.integrity),
         "warnings": list(snap.warnings),
@@ -48,6 +49,24 @@ def status(snap: Snapshot) -> dict[str, Any]:
     # Last, so that any low bounds already in the status (dv_free_low_m_s) give the low-bound dates too.
     out["forecast"] = forecast(snap, out)
     return out
+
+
+def mixture_outage(snap: Snapshot) -> list[dict[str, Any]]:
+    """Per bipropellant pair: what the other tank would strand were the pair's engine to draw everything
+    usable at its nominal mixture ratio from the tanks as they stand (``core.mixture``)."""
+    from ..core.mixture import pairs, stranded  # noqa: PLC0415
+
+    craft, rows = snap.craft, []
+    for p in pairs(craft):
+        kg, tank = stranded(craft, snap.state.remaining_kg, p)
+        eng = craft.engines[p.engine]
+        ids = craft.tank_ids
+        left = ids[int(tank)] if kg > 0 else None
+        rows.append({"tanks": [ids[p.first], ids[p.second]], "engine": eng.id, "mixture_ratio": eng.mixture_ratio,
+                     "mixture_ratio_sigma": eng.mixture_ratio_sigma, "stranded_kg": float(kg),
+                     "stranded_tank": left,
+                     "runs_out_first": None if left is None else ids[p.second if int(tank) == p.first else p.first]})
+    return rows
 
 
 GAUGE_KEYS = ("propellant_kg", "sigma_kg", "bookkeeping_kg", "difference_kg", "difference_sigma", "flagged")

@@ -81,6 +81,10 @@ def print_status(data: dict) -> None:
         for col in ("tank", "date", "gauged kg", "+- kg", "book kg", "diff kg", "sigmas", "verdict"):
             table.add_column(col, justify="left" if col in ("tank", "date", "verdict") else "right")
         for tid, g in gauged.items():
+            if g.get("phase") == "two-phase":
+                table.add_row(esc(tid), g["at"][:10], f"{g['min_kg']:.1f}..{g['max_kg']:.1f}", "", f"{g['bookkeeping_kg']:.3f}",
+                              "", "", "two-phase: no estimate" + ("" if g.get("bookkeeping_in_range") else "; book outside"))
+                continue
             verdict = "BEYOND 3 SIGMA" if g["flagged"] else "agrees"
             if g.get("adopted_by"):
                 verdict += f"; adopted (entry {g['adopted_by']})"

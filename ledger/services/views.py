@@ -70,6 +70,8 @@ def mixture_outage(snap: Snapshot) -> list[dict[str, Any]]:
 
 
 GAUGE_KEYS = ("propellant_kg", "sigma_kg", "bookkeeping_kg", "difference_kg", "difference_sigma", "flagged")
+TWO_PHASE_KEYS = ("phase", "min_kg", "max_kg", "bookkeeping_in_range")
+"""Present only for a reading on the saturation line (a range, no estimate): services.gauging."""
 
 
 def latest_gauges(snap: Snapshot) -> dict[str, dict[str, Any]]:
@@ -83,7 +85,8 @@ def latest_gauges(snap: Snapshot) -> dict[str, dict[str, Any]]:
                 latest[tank] = e
     adopted = {int(e.data["gauge"]): e.seq for e in snap.resolved.events if e.kind == REBASELINE}
     return {tank: {"id": e.seq, "at": iso(e.at), "method": e.data.get("method"),
-                   **{k: e.data.get(k) for k in GAUGE_KEYS}, "adopted_by": adopted.get(e.seq)}
+                   **{k: e.data.get(k) for k in GAUGE_KEYS}, "adopted_by": adopted.get(e.seq),
+                   **{k: e.data[k] for k in TWO_PHASE_KEYS if k in e.data}}
             for tank, e in latest.items()}
 
 
@@ -115,6 +118,8 @@ KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "W
 
 
 def _amount(data) -> str:
+    if data.get("phase") == "two-phase" and data.get("min_kg") is not None:  # a gauge reading with no estimate
+        return f"{data.get('tank')} two-phase {data['min_kg']:.3f}..{data.get('max_kg', 0.0):.3f} kg"
     if data.get("method") is not None and data.get("propellant_kg") is not None:  # a gauge reading
         return f"{data.get('tank')} {data['propellant_kg']:.3f}+-{data.get('sigma_kg', 0.0):.3f} kg"
     if data.get("remaining_kg") is not None:  # a re-baseline

@@ -62,11 +62,22 @@ def entries(items) -> list[Entry]:
     return [Entry(i + 1, k, T0 + 600.0 * i, T0 + 600.0 * i, "bench", "", d) for i, (k, d) in enumerate(items)]
 
 
-def whole(events, samples: int, workers: int = 1):
-    """What `status` computes: the samples, then usable, dv available and dv free per sample."""
-    s = mc.simulate(CRAFT, events, samples=samples, workers=workers)
-    sampled.capability_samples(CRAFT, s)
+def whole(events, samples: int, workers: int = 1, craft=CRAFT):
+    """What `status` computes: the samples, then usable, dv available and dv free per sample (and, with
+    drawn mixture ratios, each bipropellant pair's stranding per sample)."""
+    s = mc.simulate(craft, events, samples=samples, workers=workers)
+    sampled.capability_samples(craft, s)
+    if s.frac is not None:
+        sampled.outage_samples(craft, s)
     return s
+
+
+def drifting(craft):
+    """The craft with a one-sigma mixture ratio of 0.02 on every two-feed engine (core.mixture)."""
+    from dataclasses import replace  # noqa: PLC0415
+
+    return replace(craft, engines=tuple(replace(e, mixture_ratio_sigma=0.02) if len(e.feeds) == 2 else e
+                                        for e in craft.engines))
 
 
 def timed(fn, repeat: int):
@@ -110,6 +121,7 @@ def main() -> None:
     w_worst, c_worst = timed(lambda: whole(worst, worst_samples), 1)
     rebased = with_rebaselines(events, args.rebaselines)
     w_reb, c_reb = timed(lambda: whole(rebased, args.samples), args.repeat)
+    w_mr, c_mr = timed(lambda: whole(events, args.samples, craft=drifting(CRAFT)), args.repeat)
     rss_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     load1 = os.getloadavg()
 
@@ -133,6 +145,9 @@ def main() -> None:
                                                               f"{args.rebaselines + 1} runs; "
                                                               f"{statistics.median(w_reb):.2f} s wall, "
                                                               f"{statistics.median(c_reb):.2f} s CPU (medians)"),
+        ("same ledger, mixture ratio drawn (sigma 0.02 on main and thr)",
+         f"{statistics.median(w_mr):.2f} s wall, {statistics.median(c_mr):.2f} s CPU (medians; ratio "
+         f"{statistics.median(c_mr) / statistics.median(cpus):.2f}x the run without)"),
         ("machine", f"{platform.python_version()}, numpy {np.__version__}, {os.cpu_count()} cores; load average "
                     f"{load0[0]:.1f} before, {load1[0]:.1f} after (shared machine)"),
     ]

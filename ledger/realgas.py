@@ -42,11 +42,13 @@ def coolprop_name(gas: str) -> str:
 
 
 def gas_density(
-    gas: str, pressure_pa: float | np.ndarray, temperature_k: float | np.ndarray
+    gas: str, pressure_pa: float | np.ndarray, temperature_k: float | np.ndarray, allow_nan: bool = False
 ) -> float | np.ndarray:
     """Density in kg/m3 at (pressure_pa, temperature_k); floats or broadcastable arrays.
 
-    Scalars in give a float back; any array in gives an array of the broadcast shape.
+    Scalars in give a float back; any array in gives an array of the broadcast shape. Where CoolProp gives
+    no finite density (on the saturation line) this raises one clear ValueError, or with ``allow_nan``
+    returns NaN there (the gauge's sampling handles those states explicitly).
     """
     name = coolprop_name(gas)
     p, t = np.broadcast_arrays(
@@ -61,11 +63,52 @@ def gas_density(
 
     from CoolProp.CoolProp import PropsSI  # lazy: heavy import, only when gauging
 
-    flat = PropsSI("D", "P", p.ravel(), "T", t.ravel(), name)
+    scalar = np.ndim(pressure_pa) == 0 and np.ndim(temperature_k) == 0
+    try:
+        flat = PropsSI("D", "P", p.ravel(), "T", t.ravel(), name)
+    except ValueError as exc:  # a scalar on the saturation line (or outside the equation's range)
+        if not allow_nan:
+            raise ValueError(f"{gas} density at {float(p.ravel()[0]):.6g} Pa, {float(t.ravel()[0]):.6g} K: "
+                             f"{str(exc).splitlines()[0][:120]}") from None
+        flat = np.full(p.size, np.nan)
     rho = np.asarray(flat, dtype=float).reshape(p.shape)
-    if np.ndim(pressure_pa) == 0 and np.ndim(temperature_k) == 0:
+    bad = ~np.isfinite(rho) | (rho <= 0.0)
+    if bad.any():
+        # CoolProp returns inf for array elements it cannot flash (e.g. exactly on the saturation line,
+        # where pressure and temperature fix no density): NaN for the caller to handle, or one clear error.
+        if not allow_nan:
+            k = int(np.flatnonzero(bad.ravel())[0])
+            raise ValueError(f"{gas} density: no single-phase value at {float(p.ravel()[k]):.6g} Pa, "
+                             f"{float(t.ravel()[k]):.6g} K (on the saturation line or outside the equation of state)")
+        rho = np.where(bad, np.nan, rho)
+    if scalar:
         return float(rho)
     return rho
+
+
+def saturation(gas: str):
+    """The gas's critical and triple points and its saturation curve T -> (p_sat, rho_liquid, rho_vapour),
+    as ``core.gauging.Saturation`` (CoolProp's reference equation of state; NaN at or above Tc)."""
+    from CoolProp.CoolProp import PropsSI  # lazy
+
+    from ledger.core.gauging import Saturation  # noqa: PLC0415
+
+    name = coolprop_name(gas)
+    tc, pc, tt = (float(PropsSI(k, name)) for k in ("Tcrit", "pcrit", "Ttriple"))
+
+    def curve(temperature_k):
+        t = np.atleast_1d(np.asarray(temperature_k, dtype=float))
+        out = np.full((3, t.size), np.nan)
+        ok = np.isfinite(t) & (t >= tt) & (t < tc)
+        if ok.any():
+            q0, q1 = np.zeros(int(ok.sum())), np.ones(int(ok.sum()))
+            out[0, ok] = PropsSI("P", "T", t[ok], "Q", q0, name)
+            out[1, ok] = PropsSI("D", "T", t[ok], "Q", q0, name)
+            out[2, ok] = PropsSI("D", "T", t[ok], "Q", q1, name)
+        out[~np.isfinite(out)] = np.nan
+        return out[0], out[1], out[2]
+
+    return Saturation(critical_temperature_k=tc, critical_pressure_pa=pc, triple_temperature_k=tt, curve=curve)
 
 
 def molar_mass(gas: str) -> float:

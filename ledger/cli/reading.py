@@ -81,6 +81,10 @@ def print_status(data: dict) -> None:
         for col in ("tank", "date", "gauged kg", "+- kg", "book kg", "diff kg", "sigmas", "verdict"):
             table.add_column(col, justify="left" if col in ("tank", "date", "verdict") else "right")
         for tid, g in gauged.items():
+            if g.get("phase") == "two-phase":
+                table.add_row(esc(tid), g["at"][:10], f"{g['min_kg']:.1f}..{g['max_kg']:.1f}", "", f"{g['bookkeeping_kg']:.3f}",
+                              "", "", "two-phase: no estimate" + ("" if g.get("bookkeeping_in_range") else "; book outside"))
+                continue
             verdict = "BEYOND 3 SIGMA" if g["flagged"] else "agrees"
             if g.get("adopted_by"):
                 verdict += f"; adopted (entry {g['adopted_by']})"
@@ -99,6 +103,8 @@ def print_status(data: dict) -> None:
         u = data["uncertainty"]
         out.print(f"[dim]{low}: value exceeded with probability {data['confidence']:g} over {u['samples']} samples "
                   f"(seed {u['seed']}); reserves flyable now with {prob_text(u['reserves_probability'], u['samples'])}[/]")
+    for line in outage_lines(data.get("mixture_outage") or [], data.get("confidence")):
+        out.print(line)
     if data["reserves"]:
         out.print("Reserves held back: " + "; ".join(
             f"{esc(r['id'])} {r['dv_m_s']:.2f} m/s on {esc(r['engine'])}" for r in data["reserves"]))
@@ -111,6 +117,26 @@ def print_status(data: dict) -> None:
     for w in data["warnings"]:
         out.print(f"[bold yellow]warning:[/] {esc(w)}")
     out.print(f"[dim]{esc(data['caution'])}[/]")
+
+
+def outage_lines(rows: list, confidence) -> list[str]:
+    """One rich line per bipropellant pair: what the tank left over would strand, nominal and at the bound."""
+    lines = []
+    for r in rows:
+        sigma = f" +- {r['mixture_ratio_sigma']:.3f}" if r.get("mixture_ratio_sigma") else ""
+        text = (f"Mixture-ratio outage {esc('/'.join(r['tanks']))} ({esc(r['engine'])} at ratio "
+                f"{r['mixture_ratio']:.3f}{sigma}): ")
+        if r["stranded_tank"]:
+            text += (f"{esc(r['runs_out_first'])} runs out first, stranding {r['stranded_kg']:.3f} kg of "
+                     f"{esc(r['stranded_tank'])}")
+        else:
+            text += "none at the nominal ratio"
+        if r.get("stranded_high_kg") is not None and isinstance(confidence, (int, float)):
+            shares = ", ".join(f"{esc(t)} {100 * v:.0f}%" for t, v in r["stranded_tank_share"].items())
+            text += (f"; at {100 * confidence:g}% up to {r['stranded_high_kg']:.3f} kg "
+                     f"[dim](tank left over in the samples: {shares})[/]")
+        lines.append(text)
+    return lines
 
 
 def forecast_lines(fc: dict) -> list[str]:

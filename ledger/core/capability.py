@@ -47,14 +47,19 @@ def _ve(craft: Craft, ve) -> np.ndarray:
     return craft.ve() if ve is None else np.asarray(ve, dtype=float)
 
 
-def dv_available_many(craft: Craft, mass, remaining, engine: int, ve=None) -> tuple[np.ndarray, np.ndarray]:
+def _frac(craft: Craft, frac) -> np.ndarray:
+    """Feed shares (engines, tanks), or per sample (S, engines, tanks) at drawn mixture ratios (core.mixture)."""
+    return craft.feed_fractions() if frac is None else np.asarray(frac, dtype=float)
+
+
+def dv_available_many(craft: Craft, mass, remaining, engine: int, ve=None, frac=None) -> tuple[np.ndarray, np.ndarray]:
     """Delta-v from everything ``engine`` can draw before one of its feeds runs dry, and that feed's index."""
     mass, remaining = np.asarray(mass, dtype=float), np.asarray(remaining, dtype=float)
-    frac = craft.feed_fractions()[engine]
-    fed = np.flatnonzero(frac > 0)
+    frac = _frac(craft, frac)[..., engine, :]
+    fed = np.flatnonzero(craft.feed_fractions()[engine] > 0)
     # The limiting tank is picked before the floor at zero, so an overdrawn tank is named rather than
     # the first of several empty ones; the draw itself is floored (identical minimum).
-    per_feed = (remaining - craft.residuals())[..., fed] / frac[fed]
+    per_feed = (remaining - craft.residuals())[..., fed] / frac[..., fed]
     k = np.argmin(per_feed, axis=-1)
     x = np.maximum(0.0, np.take_along_axis(per_feed, k[..., None], axis=-1)[..., 0])
     ok = (mass > 0) & (mass - x > 0)
@@ -63,26 +68,26 @@ def dv_available_many(craft: Craft, mass, remaining, engine: int, ve=None) -> tu
     return dv, fed[k]
 
 
-def reserve_draw_per_kg(craft: Craft, reserves=None, ve=None) -> np.ndarray:
+def reserve_draw_per_kg(craft: Craft, reserves=None, ve=None, frac=None) -> np.ndarray:
     """Propellant the reserves draw from each tank per kg of craft mass when they start (c_t).
 
     Reserve k at mass M uses M·(1-E_k)·prod_{j<k} E_j, drawn from its engine's tanks by the feed fractions.
     With ``ve`` of shape (S, engines) the answer has shape (S, tanks).
     """
     reserves = craft.reserves if reserves is None else reserves
-    frac = craft.feed_fractions()
+    frac = _frac(craft, frac)
     ve = _ve(craft, ve)
     c = np.zeros(ve.shape[:-1] + (len(craft.tanks),))
     carried = np.ones(ve.shape[:-1])
     for r in reserves:
         e = craft.engine_index(r.engine)
         step = np.exp(-r.dv_m_s / ve[..., e])
-        c += frac[e] * (carried * (1.0 - step))[..., None]
+        c = c + frac[..., e, :] * (carried * (1.0 - step))[..., None]
         carried = carried * step
     return c
 
 
-def dv_free_many(craft: Craft, mass, remaining, engine: int, ve=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def dv_free_many(craft: Craft, mass, remaining, engine: int, ve=None, frac=None) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Largest delta-v for ``engine`` now that still leaves every reserve flyable, per sample.
 
     Returns (dv, limiting tank index or -1, reserves met). Every tank's margin after the reserves is
@@ -90,9 +95,10 @@ def dv_free_many(craft: Craft, mass, remaining, engine: int, ve=None) -> tuple[n
     """
     mass, remaining = np.asarray(mass, dtype=float), np.asarray(remaining, dtype=float)
     ve = _ve(craft, ve)
-    frac = craft.feed_fractions()[engine]
+    shares = _frac(craft, frac)
+    frac = shares[..., engine, :]
     spare = remaining - craft.residuals()  # may be negative: already short
-    c = reserve_draw_per_kg(craft, ve=ve)
+    c = reserve_draw_per_kg(craft, ve=ve, frac=shares)
     m = mass[..., None]
     alpha = spare - m * frac
     beta = m * (frac - c)
@@ -117,9 +123,9 @@ def dv_free_many(craft: Craft, mass, remaining, engine: int, ve=None) -> tuple[n
     return np.where(met, dv, 0.0), limiting, met
 
 
-def fly_many(craft: Craft, mass, remaining, burns: Sequence[tuple[str, float]], ve=None):
+def fly_many(craft: Craft, mass, remaining, burns: Sequence[tuple[str, float]], ve=None, frac=None):
     """Fly impulsive burns (engine id, dv) in order; (mass, remaining, each burn's draw per tank) after."""
-    frac = craft.feed_fractions()
+    frac = _frac(craft, frac)
     ve = _ve(craft, ve)
     m = np.asarray(mass, dtype=float)
     remaining = np.array(remaining, dtype=float)
@@ -127,7 +133,7 @@ def fly_many(craft: Craft, mass, remaining, burns: Sequence[tuple[str, float]], 
     for engine_id, dv in burns:
         e = craft.engine_index(engine_id)
         p = -m * np.expm1(-dv / ve[..., e])
-        draw = p[..., None] * frac[e]
+        draw = p[..., None] * frac[..., e, :]
         remaining = remaining - draw
         m = m - p
         draws.append(draw)

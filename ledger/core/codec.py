@@ -29,6 +29,8 @@ def craft_to_dict(craft: Craft) -> dict[str, Any]:
             d["pulse_isp_factor"] = e.pulse_isp_factor
         if e.life:
             d["life"] = dict(e.life)
+        if e.mixture_ratio_sigma is not None:
+            d["mixture_ratio_sigma"] = e.mixture_ratio_sigma
         return d
 
     out: dict[str, Any] = {
@@ -63,6 +65,7 @@ def craft_from_dict(d: dict[str, Any]) -> Craft:
             isp_sigma_s=e.get("isp_sigma_s"), thrust_sigma_n=e.get("thrust_sigma_n"),
             pulse_isp_factor=float(e.get("pulse_isp_factor", 1.0)),
             life={k: float(v) for k, v in e["life"].items()} if e.get("life") else None,
+            mixture_ratio_sigma=e.get("mixture_ratio_sigma"),
         )
 
     return Craft(

@@ -49,6 +49,16 @@ class Engine:
     """Pulse-mode Isp as a share of steady state (craft file ``pulse: {isp_factor: 0.75}``); 1 = none given."""
     life: Mapping[str, float] | None = None
     """Qualified life limits (``pulses``, ``throughput_kg``, ``on_time_s``), any of them; None = none given."""
+    mixture_ratio_sigma: float | None = None
+    """One sigma of the mixture ratio as flown: the first feed's mass parts over the second's (two feeds only)."""
+
+    @property
+    def mixture_ratio(self) -> float | None:
+        """The first feed's mass parts over the second's, for an engine with exactly two feeds."""
+        if len(self.feeds) != 2:
+            return None
+        first, second = self.feeds.values()
+        return first / second
 
     @property
     def ve(self) -> float:

@@ -48,6 +48,7 @@ class Samples:
     ve: np.ndarray            # (S, engines) effective exhaust velocity along the burn, m/s
     seed: int
     segments: int
+    frac: np.ndarray | None = None  # (S, engines, tanks) feed shares at each sample's drawn mixture ratio
 
     def __len__(self) -> int:
         return len(self.mass_kg)
@@ -141,7 +142,7 @@ def _scaling(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
 
 
 def _chunk(craft: Craft, plans: Sequence[Plan | None], rebases: Sequence[Rebase], dry, loads, isp, thrust,
-           rng: np.random.Generator):
+           rng: np.random.Generator, frac: np.ndarray | None = None):
     """Final mass, remaining per tank and exhaust velocities for one chunk of n samples.
 
     Each run between re-baselines starts from the mass and tanks the previous one left, per sample. At a
@@ -151,12 +152,11 @@ def _chunk(craft: Craft, plans: Sequence[Plan | None], rebases: Sequence[Rebase]
     """
     ve = isp * G0 * np.cos(np.radians([e.cant_deg for e in craft.engines]))
     flow = thrust / (isp * G0)
-    frac = craft.feed_fractions()
     mass, remaining = dry + loads.sum(axis=1), loads.copy()
     for i, p in enumerate(plans):
         if p is not None:
             mass, used = _run(p, mass, ve, flow, rng)
-            remaining -= used @ frac
+            remaining -= split_draws(craft, used, frac)
         if i < len(rebases):
             r = rebases[i]
             adopted = r.remaining_kg + r.sigma_kg * rng.standard_normal(len(mass))
@@ -222,6 +222,24 @@ def _sequential(p: Plan, m0, log_a, b):
     return m[:, -1], -before * np.expm1(dense_a[:, p.sc])
 
 
+def split_draws(craft: Craft, used: np.ndarray, frac: np.ndarray | None) -> np.ndarray:
+    """Propellant per engine (n, engines) -> per tank (n, tanks), at the nominal feed shares or at each
+    sample's own (n, engines, tanks) from ``core.mixture``."""
+    if frac is None:
+        return used @ craft.feed_fractions()
+    return np.einsum("ne,net->nt", used, frac)
+
+
+def mixture_draws(craft: Craft, seed, samples: int) -> np.ndarray | None:
+    """Each sample's feed shares at its drawn mixture ratios (``core.mixture``), from their own child
+    stream of ``seed`` (the third: the craft's and the entries' streams are unchanged by it)."""
+    from .mixture import drifts, flown_fractions  # noqa: PLC0415
+
+    if not drifts(craft):
+        return None
+    return flown_fractions(craft, generator(np.random.SeedSequence(seed).spawn(3)[2]), samples)
+
+
 def generator(seed) -> np.random.Generator:
     """numpy's SFC64 bit generator: its normals came out ~17 % faster than the default PCG64's here, and
     normal draws are the largest single cost of a run."""
@@ -249,6 +267,7 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
     plans = [prepare(craft, run) if len(run) else None for run in cut.runs]
     craft_seq, entry_seq = np.random.SeedSequence(seed).spawn(2)
     dry, loads, isp, thrust = _globals(craft, generator(craft_seq), samples)
+    frac = mixture_draws(craft, seed, samples)
     size = chunk_size(cut.widest, chunk)
     bounds = [(lo, min(samples, lo + size)) for lo in range(0, samples, size)]
     streams = entry_seq.spawn(len(bounds))
@@ -259,7 +278,7 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
     def one(i: int):
         lo, hi = bounds[i]
         return _chunk(craft, plans, cut.rebases, dry[lo:hi], loads[lo:hi], isp[lo:hi], thrust[lo:hi],
-                      generator(streams[i]))
+                      generator(streams[i]), None if frac is None else frac[lo:hi])
 
     if workers > 1 and len(bounds) > 1:
         from concurrent.futures import ThreadPoolExecutor  # noqa: PLC0415
@@ -269,7 +288,7 @@ def simulate(craft: Craft, events: Sequence[Entry], samples: int = DEFAULT_SAMPL
             _collect(results, bounds, mass, remaining, ve, samples, progress)
     else:
         _collect(map(one, range(len(bounds))), bounds, mass, remaining, ve, samples, progress)
-    return Samples(mass, remaining, ve, seed, len(cut))
+    return Samples(mass, remaining, ve, seed, len(cut), frac)
 
 
 def _collect(results, bounds, mass, remaining, ve, samples, progress) -> None:

@@ -12,7 +12,7 @@ import numpy as np
 
 from .craft import G0, Craft
 from .entries import BURN, MASS, REBASELINE, Entry
-from .montecarlo import DEFAULT_SEED, Samples, _globals, generator
+from .montecarlo import DEFAULT_SEED, Samples, _globals, generator, mixture_draws
 from .sigmas import entry_sigma
 
 
@@ -20,7 +20,7 @@ def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int
     """Reference: the same model, one sample and one entry at a time in plain Python (slow, obvious)."""
     rng = generator(seed)
     dry, loads, isp, thrust = _globals(craft, rng, samples)
-    frac = craft.feed_fractions()
+    flown = mixture_draws(craft, seed, samples)  # (S, engines, tanks) or None: the nominal shares
     index = {e.id: i for i, e in enumerate(craft.engines)}
     tanks = {t.id: i for i, t in enumerate(craft.tanks)}
     cos = np.cos(np.radians([e.cant_deg for e in craft.engines]))
@@ -28,7 +28,9 @@ def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int
     mass = np.empty(samples)
     remaining = np.empty((samples, len(craft.tanks)))
     ve_all = isp * G0 * cos
+    nominal = craft.feed_fractions()
     for s in range(samples):
+        frac = nominal if flown is None else flown[s]
         m, rem = dry[s] + loads[s].sum(), loads[s].copy()
         for ev in events:
             d = ev.data
@@ -53,4 +55,4 @@ def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int
             m -= p
             rem -= p * frac[e]
         mass[s], remaining[s] = m, rem
-    return Samples(mass, remaining, ve_all, seed, len(events))
+    return Samples(mass, remaining, ve_all, seed, len(events), flown)

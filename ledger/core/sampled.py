@@ -34,12 +34,12 @@ class SampleCheck:
 def check_samples(craft: Craft, s: Samples, engine_id: str, dv: float,
                   commitments: Sequence[tuple[str, float]] = ()) -> SampleCheck:
     """``capability.check`` for every sample: fly commitments, the burn, then the reserves."""
-    m1, r1, _ = fly_many(craft, s.mass_kg, s.remaining_kg, list(commitments) + [(engine_id, dv)], ve=s.ve)
-    _, r2, _ = fly_many(craft, m1, r1, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve)
+    m1, r1, _ = fly_many(craft, s.mass_kg, s.remaining_kg, list(commitments) + [(engine_id, dv)], ve=s.ve, frac=s.frac)
+    _, r2, _ = fly_many(craft, m1, r1, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve, frac=s.frac)
     intact = np.all(r2 - craft.residuals() >= -EPS_KG, axis=1)
     e = craft.engine_index(engine_id)
-    free, _, _ = dv_free_many(craft, m1, r1, e, ve=s.ve)
-    avail, _ = dv_available_many(craft, m1, r1, e, ve=s.ve)
+    free, _, _ = dv_free_many(craft, m1, r1, e, ve=s.ve, frac=s.frac)
+    avail, _ = dv_available_many(craft, m1, r1, e, ve=s.ve, frac=s.frac)
     burn_ok = np.all(r1 - craft.residuals() >= -EPS_KG, axis=1)
     return SampleCheck(intact, np.where(intact & burn_ok, np.minimum(free, avail), 0.0))
 
@@ -50,16 +50,25 @@ def capability_samples(craft: Craft, s: Samples) -> tuple[np.ndarray, np.ndarray
     avail = np.empty(s.ve.shape)
     free = np.empty(s.ve.shape)
     for e in range(len(craft.engines)):
-        avail[:, e], _ = dv_available_many(craft, s.mass_kg, s.remaining_kg, e, ve=s.ve)
-        f, _, _ = dv_free_many(craft, s.mass_kg, s.remaining_kg, e, ve=s.ve)
+        avail[:, e], _ = dv_available_many(craft, s.mass_kg, s.remaining_kg, e, ve=s.ve, frac=s.frac)
+        f, _, _ = dv_free_many(craft, s.mass_kg, s.remaining_kg, e, ve=s.ve, frac=s.frac)
         free[:, e] = np.minimum(f, avail[:, e])
     return usable, avail, free
 
 
 def reserves_intact(craft: Craft, s: Samples) -> np.ndarray:
     """(S,) bool: the reserves can be flown from each sample's state as it stands."""
-    _, r, _ = fly_many(craft, s.mass_kg, s.remaining_kg, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve)
+    _, r, _ = fly_many(craft, s.mass_kg, s.remaining_kg, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve,
+                       frac=s.frac)
     return np.all(r - craft.residuals() >= -EPS_KG, axis=1)
+
+
+def outage_samples(craft: Craft, s: Samples) -> list[tuple[object, np.ndarray, np.ndarray]]:
+    """Per bipropellant pair (``core.mixture.pairs``): (pair, kg stranded per sample, tank holding it),
+    each sample's engine drawing its usable propellant at its own drawn mixture ratio."""
+    from .mixture import pairs, stranded  # noqa: PLC0415
+
+    return [(p, *stranded(craft, s.remaining_kg, p, s.frac)) for p in pairs(craft)]
 
 
 def low_bound(values: np.ndarray, confidence: float) -> float:

@@ -166,6 +166,31 @@ def _mass_parts(value: Any) -> float | None:
     return share if math.isfinite(share) and share > 0 else None
 
 
+def _ratio_sigma(value: Any, where: str) -> float:
+    """A one-sigma mixture ratio (a plain number, mass parts per part) as a finite float >= 0."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(float(value)) or value < 0:
+        raise InputError(f"{where}: expected a one-sigma mixture ratio such as 0.02 (a number >= 0), got {shown(value)}")
+    return float(value)
+
+
+def _mixture(f: _Fields, feeds: dict[str, float], feed_sigma: tuple[str, float] | None,
+             engine_sigma: Any) -> tuple[dict[str, float], float | None]:
+    """The engine's mixture-ratio sigma (first feed's parts over the second's). A sigma written on a feed
+    puts that feed first, so the ratio is that feed over the other and its sigma is sigma/other parts."""
+    if engine_sigma is None and feed_sigma is None:
+        return feeds, None
+    if len(feeds) != 2:
+        raise InputError(f"{f.at('mixture_ratio_sigma')}: a mixture ratio needs exactly two feeds, "
+                         f"this engine has {len(feeds)}")
+    if engine_sigma is not None and feed_sigma is not None:
+        raise InputError(f"{f.at('mixture_ratio_sigma')}: give the sigma on the engine or on one feed, not both")
+    if engine_sigma is not None:
+        return feeds, _ratio_sigma(engine_sigma, f.at("mixture_ratio_sigma"))
+    tank_id, sigma = feed_sigma
+    other = next(k for k in feeds if k != tank_id)
+    return {tank_id: feeds[tank_id], other: feeds[other]}, sigma / feeds[other]
+
+
 def craft_from_document(doc: Any, src: str) -> Craft:
     if not isinstance(doc, Mapping):
         raise InputError(f"{src}: expected a mapping with craft, tanks, engines (and reserves)")
@@ -196,14 +221,21 @@ def craft_from_document(doc: Any, src: str) -> Craft:
         feeds_node = node.get("feeds")
         if not isinstance(feeds_node, Mapping) or not feeds_node:
             raise InputError(f"{f.at('feeds')}: expected a mapping of tank id to mass parts, e.g. {{ox: 1.65, fuel: 1}}")
-        feeds = {}
+        feeds, feed_sigma = {}, None
         for tank_id, parts in feeds_node.items():
             if str(tank_id) not in tank_ids:
                 raise InputError(f"{f.at('feeds')}: unknown tank {shown(tank_id)} (tanks: {', '.join(sorted(tank_ids))})")
+            if isinstance(parts, Mapping):  # {parts: 1.65, sigma: 0.02}: this feed's parts drift, the other's hold
+                sigma = _ratio_sigma(parts.get("sigma"), f"{f.at('feeds')}.{tank_id}.sigma")
+                if feed_sigma is not None:
+                    raise InputError(f"{f.at('feeds')}.{tank_id}: a sigma on one feed only (the mixture ratio is that "
+                                     "feed's parts over the other's)")
+                feed_sigma, parts = (str(tank_id), sigma), parts.get("parts")
             share = _mass_parts(parts)
             if share is None:
                 raise InputError(f"{f.at('feeds')}.{tank_id}: expected a positive number of mass parts, got {shown(parts)}")
             feeds[str(tank_id)] = share
+        feeds, mr_sigma = _mixture(f, feeds, feed_sigma, node.get("mixture_ratio_sigma"))
         cant = f.qty("cant", "angle", 0.0)
         if cant >= 90.0:
             raise InputError(f"{f.at('cant')}: {cant:g} deg leaves no thrust along the burn (expected below 90 deg)")
@@ -211,6 +243,7 @@ def craft_from_document(doc: Any, src: str) -> Craft:
                               thrust_n=f.qty("thrust", "force", positive=True), feeds=feeds, cant_deg=cant,
                               isp_sigma_s=f.qty("isp_sigma", "time", required=False),
                               thrust_sigma_n=f.qty("thrust_sigma", "force", required=False),
+                              mixture_ratio_sigma=mr_sigma,
                               **_pulse_and_life(src, node, f"engines[{i}]")))
     _unique(src, "engines", [e.id for e in engines])
     engine_ids = {e.id for e in engines}

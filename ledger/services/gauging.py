@@ -17,9 +17,9 @@ import numpy as np
 from ..core import liquids
 from ..core.booksigma import bookkeeping_sigma
 from ..core.craft import Tank
-from ..core.entries import GAUGE, REBASELINE
+from ..core.entries import BURN, GAUGE, REBASELINE, USE
 from ..core.fluids import canonical_gas, is_gas_name
-from ..core.gauging import GaugeSigmas, blowdown_estimate, gas_stored_estimate
+from ..core.gauging import GaugeSigmas, TwoPhaseGauge, blowdown_estimate, gas_stored_estimate
 from ..core.reconcile import reconcile
 from ..core.replay import steps_from_events
 from ..errors import InputError
@@ -33,6 +33,8 @@ GAS_FULL_SCALE_PA = 20.0e6
 """Assumed transducer full scale of a gas-stored tank (xenon, cold-gas bottles), 0.5 % of it taken as
 the default pressure sigma: 100 kPa [practice]. Liquid blowdown tanks keep GaugeSigmas' 3 MPa scale."""
 SAMPLES, SEED = 20_000, 0
+TWO_PHASE = "two-phase"
+GAS_OFFSET_AFTER_BURN_K, GAS_OFFSET_SETTLED_K = 1.0, 0.5
 
 
 def tank_of(snap: Snapshot, tank_id: str) -> Tank:
@@ -65,11 +67,30 @@ def method_for(tank: Tank) -> str:
     return BLOWDOWN
 
 
+SETTLING_S = 12 * 3600.0
+"""A reading within this long after a firing that drew from the tank counts as "after a burn": the
+pressurant has not settled to the wall's temperature (gas-temperature offset sigma 1 K then, 0.5 K
+otherwise; project choice [practice], issue 12 point 5)."""
+
+
+def after_burn(snap: Snapshot, tank_id: str, at: float) -> bool:
+    """Whether an engine feeding ``tank_id`` fired (burn or use) in the SETTLING_S before ``at``."""
+    feeding = {e.id for e in snap.craft.engines if tank_id in e.feeds}
+    return any(e.kind in (BURN, USE) and e.data.get("engine") in feeding and at - SETTLING_S <= e.at <= at
+               for e in snap.resolved.events)
+
+
 def default_sigmas(tank: Tank, pressure_sigma_pa: float | None = None,
-                   temperature_sigma_k: float | None = None) -> GaugeSigmas:
-    """GaugeSigmas for this tank: the fluid's own correlation sigmas, the sensor sigmas if given."""
+                   temperature_sigma_k: float | None = None,
+                   gas_temperature_offset_k: float | None = None) -> GaugeSigmas:
+    """GaugeSigmas for this tank: the fluid's own correlation sigmas, the sensor sigmas if given. The
+    pressurant's offset from the wall sensor (liquid tanks only) stays None unless given: the reading's
+    time decides it (``after_burn``)."""
     s = GaugeSigmas()
     if method_for(tank) == GAS:
+        if gas_temperature_offset_k is not None:
+            raise InputError(f"--gas-temperature-offset: tank {tank.id} is gas-stored ({tank.fluid}): the sensor reads "
+                             "the propellant itself; give its uncertainty as --temperature-sigma")
         s = replace(s, pressure_pa=0.005 * GAS_FULL_SCALE_PA)
     else:
         s = replace(s, liquid_density_rel=liquids.density_sigma_rel(tank.fluid),
@@ -78,6 +99,10 @@ def default_sigmas(tank: Tank, pressure_sigma_pa: float | None = None,
         s = replace(s, pressure_pa=float(pressure_sigma_pa))
     if temperature_sigma_k is not None:
         s = replace(s, temperature_k=float(temperature_sigma_k))
+    if gas_temperature_offset_k is not None:
+        if not (np.isfinite(gas_temperature_offset_k) and gas_temperature_offset_k >= 0):
+            raise InputError(f"--gas-temperature-offset: expected a sigma of 0 K or more, got {gas_temperature_offset_k!r}")
+        s = replace(s, gas_temperature_offset_k=float(gas_temperature_offset_k))
     return s
 
 
@@ -98,8 +123,10 @@ def _estimate(tank: Tank, method: str, p: float, t: float, s: GaugeSigmas) -> tu
     from .. import realgas  # noqa: PLC0415 - CoolProp only when a reading is computed
 
     if method == GAS:
-        g = gas_stored_estimate(tank.volume_m3, p, t, partial(realgas.gas_density, tank.fluid), s,
-                                n_samples=SAMPLES, seed=SEED)
+        g = gas_stored_estimate(tank.volume_m3, p, t, partial(realgas.gas_density, tank.fluid, allow_nan=True), s,
+                                n_samples=SAMPLES, seed=SEED, saturation=realgas.saturation(tank.fluid))
+        if isinstance(g, TwoPhaseGauge):
+            return None, None, asdict(g)
     else:
         pr = tank.pressurant
         p_vap0 = liquids.vapour_pressure(tank.fluid, pr.temperature_k)
@@ -121,12 +148,20 @@ def _reading(snap: Snapshot, tank_id: str, pressure_pa: float, temperature_k: fl
         if not (isinstance(value, (int, float)) and np.isfinite(value) and value > 0):
             raise InputError(f"{name}: expected a finite value greater than zero, got {value!r}")
     s = sigmas if sigmas is not None else default_sigmas(tank)
+    if method != GAS and s.gas_temperature_offset_k is None:
+        s = replace(s, gas_temperature_offset_k=GAS_OFFSET_AFTER_BURN_K if after_burn(snap, tank_id, at)
+                    else GAS_OFFSET_SETTLED_K)
+    elif method == GAS:
+        s = replace(s, gas_temperature_offset_k=0.0)
     book_kg, book_sigma, _ = bookkeeping_at(snap, tank_id, at)
     try:
         mass, sigma, details = _estimate(tank, method, float(pressure_pa), float(temperature_k), s)
-        rec = reconcile(mass, sigma, book_kg, book_sigma, LIMIT_SIGMAS)
+        rec = None if mass is None else reconcile(mass, sigma, book_kg, book_sigma, LIMIT_SIGMAS)
     except ValueError as exc:
         raise InputError(f"tank {tank_id}: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}") from None
+    if rec is None:
+        return _two_phase_payload(tank, method, float(pressure_pa), float(temperature_k), s, book_kg, book_sigma,
+                                  details)
     return {
         "tank": tank_id, "fluid": tank.fluid, "method": method,
         "pressure_pa": float(pressure_pa), "temperature_k": float(temperature_k),
@@ -136,6 +171,24 @@ def _reading(snap: Snapshot, tank_id: str, pressure_pa: float, temperature_k: fl
         "difference_kg": rec.difference_kg, "combined_sigma_kg": rec.combined_sigma_kg,
         "difference_sigma": rec.difference_sigmas, "flagged": rec.beyond_limit, "limit_sigma": rec.limit_sigmas,
         "rebaseline_kg": rec.rebaseline_kg, "rebaseline_sigma_kg": rec.rebaseline_sigma_kg,
+        "sigmas": asdict(s), "details": details,
+    }
+
+
+def _two_phase_payload(tank: Tank, method: str, p: float, t: float, s: GaugeSigmas, book_kg: float,
+                       book_sigma: float, details: dict) -> dict[str, Any]:
+    """A reading on the saturation line: the mass range and the bookkeeping then, no point estimate, no
+    comparison in sigmas and nothing a re-baseline could adopt."""
+    inside = details["min_kg"] - 1e-9 <= book_kg <= details["max_kg"] + 1e-9
+    return {
+        "tank": tank.id, "fluid": tank.fluid, "method": method, "phase": TWO_PHASE,
+        "pressure_pa": p, "temperature_k": t, "pressure_sigma_pa": s.pressure_pa, "temperature_sigma_k": s.temperature_k,
+        "min_kg": details["min_kg"], "max_kg": details["max_kg"],
+        "bookkeeping_kg": book_kg, "bookkeeping_sigma_kg": book_sigma, "bookkeeping_in_range": bool(inside),
+        "flagged": False, "limit_sigma": LIMIT_SIGMAS,
+        "rebaseline_refused": (f"two-phase reading: liquid and vapour coexist at {p / 1e6:.4g} MPa, {t:.2f} K, so any "
+                               f"mass from {details['min_kg']:.3f} to {details['max_kg']:.3f} kg fits it; it fixes no "
+                               "value to adopt (read it again away from the saturation line, e.g. after heating)"),
         "sigmas": asdict(s), "details": details,
     }
 
@@ -184,6 +237,8 @@ def record_rebaseline(ledger: Ledger, tank_id: str, gauge_id: Any, by: str | Non
     earlier = adopted_by(snap.resolved, seq)
     if earlier is not None:
         raise InputError(f"--gauge: reading {seq} was already adopted by entry {earlier}")
+    if reading.data.get("phase") == TWO_PHASE:
+        raise InputError(f"rebaseline: reading {seq} is {reading.data.get('rebaseline_refused') or 'two-phase'}")
     g_kg, g_sigma = float(reading.data["propellant_kg"]), float(reading.data["sigma_kg"])
     book_kg, book_sigma, _ = bookkeeping_at(snap, tank_id, reading.at)
     try:

@@ -234,9 +234,15 @@ def _gauge(craft: Craft, data: Mapping[str, Any]) -> dict[str, Any]:
     for key in GAUGE_POSITIVE:
         if _finite(data.get(key), f"gauge: {key}") <= 0:
             raise InputError(f"gauge: {key} must be greater than zero")
+    two_phase = data.get("phase") == "two-phase"  # a range (min_kg, max_kg), no estimate or comparison
+    if two_phase and not 0 <= _finite(data.get("min_kg"), "gauge: min_kg") <= _finite(data.get("max_kg"), "gauge: max_kg"):
+        raise InputError("gauge: a two-phase range needs 0 <= min_kg <= max_kg")
     for key in GAUGE_FINITE:
-        _finite(data.get(key), f"gauge: {key}")
+        if not (two_phase and key != "bookkeeping_kg"):
+            _finite(data.get(key), f"gauge: {key}")
     for key in GAUGE_SIGMAS:
+        if two_phase and key not in ("bookkeeping_sigma_kg", "pressure_sigma_pa", "temperature_sigma_k"):
+            continue
         if _finite(data.get(key), f"gauge: {key}") < 0:
             raise InputError(f"gauge: {key} must not be negative")
     if not isinstance(data.get("flagged"), bool):

@@ -10,6 +10,8 @@ import math
 import os
 from typing import TYPE_CHECKING, Any, Sequence
 
+import numpy as np
+
 from ..core import capability as cap
 from ..core.entries import APPROVE, DECISIONS
 from ..errors import InputError
@@ -245,9 +247,25 @@ def _confidence_status(snapshot: Snapshot, confidence: float, samples: int, seed
                            "dv_free": stats(free[:, i]), "dv_available": stats(avail[:, i])}
                     for i, e in enumerate(craft.engines)},
         "reserves_probability": float(sampled.reserves_intact(craft, s).mean()),
+        "mixture_outage": _outage(craft, s, confidence),
         "approvals": {str(k): v for k, v in approvals(snapshot, s, confidence).items()},
         "caution": CAUTION,
     }
+
+
+def _outage(craft, s: mc.Samples, confidence: float) -> list[dict[str, Any]]:
+    """Per bipropellant pair over the samples: the stranding exceeded only with probability 1 - confidence
+    (what the low bounds allow for), its mean, and in what share of samples each tank is the one left."""
+    from ..core import sampled  # noqa: PLC0415
+
+    rows = []
+    for p, kg, tank in sampled.outage_samples(craft, s):
+        ids = craft.tank_ids
+        share = {ids[t]: float(np.mean((tank == t) & (kg > 0))) for t in (p.first, p.second)}
+        rows.append({"tanks": [ids[p.first], ids[p.second]],
+                     "stranded_high_kg": float(np.quantile(kg, confidence, method="higher")),
+                     "stranded_mean_kg": float(kg.mean()), "stranded_tank_share": share})
+    return rows
 
 
 def status_with_confidence(snap: Snapshot, confidence: float = DEFAULT_CONFIDENCE, samples: int = DEFAULT_SAMPLES,
@@ -276,6 +294,8 @@ def status_with_confidence(snap: Snapshot, confidence: float = DEFAULT_CONFIDENC
         if a.get("verdict_now"):
             row["verdict_now"] = verdicts[str(row["id"])] = a["verdict_now"]
     data["warnings"] = combined(data["warnings"], data["pending_plans"], verdicts)
+    for row, low in zip(data.get("mixture_outage", []), u.get("mixture_outage", [])):
+        row.update({k: v for k, v in low.items() if k != "tanks"})
     data["uncertainty"] = {"samples": u["samples"], "seed": u["seed"], "segments": u["segments"],
                            "reserves_probability": u["reserves_probability"], "mass_low_kg": u["mass_kg"]["low"],
                            "mass_sd_kg": u["mass_kg"]["sd"]}

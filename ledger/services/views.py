@@ -40,6 +40,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
             for e in snap.engines
         },
         "reserves": reserves,
+        "mixture_outage": mixture_outage(snap),
         "pending_plans": [plan_row(p) for p in snap.resolved.pending],
         "integrity": "intact" if snap.integrity is None else str(snap.integrity),
         "warnings": list(snap.warnings),
@@ -50,7 +51,27 @@ def status(snap: Snapshot) -> dict[str, Any]:
     return out
 
 
+def mixture_outage(snap: Snapshot) -> list[dict[str, Any]]:
+    """Per bipropellant pair: what the other tank would strand were the pair's engine to draw everything
+    usable at its nominal mixture ratio from the tanks as they stand (``core.mixture``)."""
+    from ..core.mixture import pairs, stranded  # noqa: PLC0415
+
+    craft, rows = snap.craft, []
+    for p in pairs(craft):
+        kg, tank = stranded(craft, snap.state.remaining_kg, p)
+        eng = craft.engines[p.engine]
+        ids = craft.tank_ids
+        left = ids[int(tank)] if kg > 0 else None
+        rows.append({"tanks": [ids[p.first], ids[p.second]], "engine": eng.id, "mixture_ratio": eng.mixture_ratio,
+                     "mixture_ratio_sigma": eng.mixture_ratio_sigma, "stranded_kg": float(kg),
+                     "stranded_tank": left,
+                     "runs_out_first": None if left is None else ids[p.second if int(tank) == p.first else p.first]})
+    return rows
+
+
 GAUGE_KEYS = ("propellant_kg", "sigma_kg", "bookkeeping_kg", "difference_kg", "difference_sigma", "flagged")
+TWO_PHASE_KEYS = ("phase", "min_kg", "max_kg", "bookkeeping_in_range")
+"""Present only for a reading on the saturation line (a range, no estimate): services.gauging."""
 
 
 def latest_gauges(snap: Snapshot) -> dict[str, dict[str, Any]]:
@@ -64,7 +85,8 @@ def latest_gauges(snap: Snapshot) -> dict[str, dict[str, Any]]:
                 latest[tank] = e
     adopted = {int(e.data["gauge"]): e.seq for e in snap.resolved.events if e.kind == REBASELINE}
     return {tank: {"id": e.seq, "at": iso(e.at), "method": e.data.get("method"),
-                   **{k: e.data.get(k) for k in GAUGE_KEYS}, "adopted_by": adopted.get(e.seq)}
+                   **{k: e.data.get(k) for k in GAUGE_KEYS}, "adopted_by": adopted.get(e.seq),
+                   **{k: e.data[k] for k in TWO_PHASE_KEYS if k in e.data}}
             for tank, e in latest.items()}
 
 
@@ -96,6 +118,8 @@ KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "W
 
 
 def _amount(data) -> str:
+    if data.get("phase") == "two-phase" and data.get("min_kg") is not None:  # a gauge reading with no estimate
+        return f"{data.get('tank')} two-phase {data['min_kg']:.3f}..{data.get('max_kg', 0.0):.3f} kg"
     if data.get("method") is not None and data.get("propellant_kg") is not None:  # a gauge reading
         return f"{data.get('tank')} {data['propellant_kg']:.3f}+-{data.get('sigma_kg', 0.0):.3f} kg"
     if data.get("remaining_kg") is not None:  # a re-baseline

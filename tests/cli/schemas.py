@@ -64,6 +64,14 @@ STATUS = {
             "limiting_tank": {"type": ["string", "null"]}, "reserves_met": {"type": "boolean"}}}},
         "reserves": {"type": "array", "items": {"type": "object", "properties": {
             "id": STR, "engine": STR, "dv_m_s": NUM}}},
+        "mixture_outage": {"type": "array", "items": {"type": "object", "required": [
+            "tanks", "engine", "mixture_ratio", "stranded_kg", "stranded_tank", "runs_out_first",
+            "stranded_high_kg", "stranded_mean_kg", "stranded_tank_share"], "properties": {
+            "tanks": {"type": "array", "items": STR, "minItems": 2, "maxItems": 2}, "engine": STR,
+            "mixture_ratio": NUM, "mixture_ratio_sigma": {"type": ["number", "null"]}, "stranded_kg": NUM,
+            "stranded_tank": {"type": ["string", "null"]}, "runs_out_first": {"type": ["string", "null"]},
+            "stranded_high_kg": NUM, "stranded_mean_kg": NUM,
+            "stranded_tank_share": {"type": "object", "additionalProperties": NUM}}}},
         "pending_plans": {"type": "array", "items": {"type": "object", "required": [
             "id", "engine", "dv_m_s", "at", "approval", "approvals_needed", "approvals_counted"], "properties": {
             "id": {"type": "integer"}, "engine": STR, "dv_m_s": NUM, "at": ISO,

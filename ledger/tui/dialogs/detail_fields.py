@@ -38,6 +38,8 @@ def named(key: str, value: Any) -> tuple[str, str]:
 
 
 def gauge_lines(d: Mapping[str, Any]) -> list[Line]:
+    if d.get("phase") == "two-phase":
+        return two_phase_lines(d)
     flagged = bool(d.get("flagged"))
     out: list[Line] = [
         ("tank", f"{d.get('tank')} ({d.get('fluid')})", ""),
@@ -132,3 +134,19 @@ def data_lines(kind: str, data: Mapping[str, Any], approval_now: str | None = No
     except (KeyError, TypeError, ValueError):
         return None  # an unexpected shape: the generic listing shows every stored field
     return None
+
+
+def two_phase_lines(d: Mapping[str, Any]) -> list[Line]:
+    """A reading on the saturation line: a range, no estimate, nothing a re-baseline could adopt."""
+    inside = bool(d.get("bookkeeping_in_range"))
+    return [
+        ("tank", f"{d.get('tank')} ({d.get('fluid')})", ""),
+        ("method", f"{d.get('method')}, two-phase", ""),
+        ("pressure", f"{d['pressure_pa'] / 1e5:.6g} bar ± {d.get('pressure_sigma_pa', 0.0) / 1e5:.3g} bar", ""),
+        ("temperature", f"{d['temperature_k'] - 273.15:.2f} degC ({d['temperature_k']:.2f} K) ± "
+                        f"{d.get('temperature_sigma_k', 0.0):.3g} K", ""),
+        ("gauged", f"any mass from {d['min_kg']:,.3f} to {d['max_kg']:,.3f} kg (vapour to liquid)", "bold"),
+        ("bookkeeping then", _pm(d.get("bookkeeping_kg"), d.get("bookkeeping_sigma_kg"))
+         + (", inside the range" if inside else ", OUTSIDE the range"), "" if inside else FLAG_STYLE),
+        ("re-baseline", str(d.get("rebaseline_refused", "refused: two-phase")), ""),
+    ]

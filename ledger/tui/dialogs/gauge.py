@@ -53,6 +53,8 @@ def reading_text(r: dict[str, Any], foot: str = PREVIEW_FOOT) -> Text:
     out.append(f"◉ {r['tank']} ({r['fluid']}, {r['method']}) at {fmt.when(r['at'])} UTC\n", style="bold")
     out.append(f"reading {r['pressure_pa'] / 1e5:.6g} bar, {r['temperature_k'] - 273.15:.2f} degC "
                f"(± {r['pressure_sigma_pa'] / 1e5:.3g} bar, {r['temperature_sigma_k']:.3g} K)\n")
+    if r.get("phase") == gauging.TWO_PHASE:
+        return two_phase_text(out, r, foot)
     out.append("gauged ")
     out.append(f"{r['propellant_kg']:,.3f} ± {r['sigma_kg']:.3f} kg", style="bold")
     out.append(f" (1σ) · bookkeeping {r['bookkeeping_kg']:,.3f} ± {r['bookkeeping_sigma_kg']:.3f} kg\n")
@@ -65,6 +67,21 @@ def reading_text(r: dict[str, Any], foot: str = PREVIEW_FOOT) -> Text:
         out.append("  ✓ within 3σ", style="green")
         out.append(f"\ncombined {r['rebaseline_kg']:,.3f} ± {r['rebaseline_sigma_kg']:.3f} kg (what a re-baseline "
                    "would adopt)\n")
+    out.append(foot, style="italic")
+    return out
+
+
+def two_phase_text(out: Text, r: dict[str, Any], foot: str) -> Text:
+    """A reading on the saturation line: the range, the bookkeeping against it, no estimate, no re-baseline."""
+    d = r["details"]
+    out.append("two-phase: ", style="bold yellow")
+    out.append(f"any mass from {r['min_kg']:,.3f} kg (all vapour) to {r['max_kg']:,.3f} kg (all liquid)", style="bold")
+    out.append(f"\nsaturation {d['saturation_pressure_pa'] / 1e5:.6g} bar here; reading "
+               f"{d['pressure_from_saturation_sigma']:+.2f}σ from it: no point estimate\n")
+    out.append(f"bookkeeping {r['bookkeeping_kg']:,.3f} ± {r['bookkeeping_sigma_kg']:.3f} kg ")
+    out.append("inside the range" if r["bookkeeping_in_range"] else "⚠ OUTSIDE the range",
+               style="green" if r["bookkeeping_in_range"] else "bold red")
+    out.append(f"\nno re-baseline: {r['rebaseline_refused']}\n")
     out.append(foot, style="italic")
     return out
 
@@ -154,7 +171,8 @@ def reading_options(snap) -> list[tuple[str, int]]:
     adopted = {int(e.get("gauge")) for e in snap.resolved.events if e.kind == REBASELINE}
     out = []
     for e in reversed(snap.entries):
-        if e.kind == GAUGE and e.seq not in adopted and e.seq not in snap.resolved.superseded:
+        if (e.kind == GAUGE and e.seq not in adopted and e.seq not in snap.resolved.superseded
+                and e.data.get("phase") != gauging.TWO_PHASE):  # a range: nothing to adopt
             d = e.data
             out.append((f"#{e.seq} {d['tank']} {d['propellant_kg']:,.2f}±{d['sigma_kg']:,.2f} kg, "
                         f"{d['difference_sigma']:+.1f}σ, {fmt.when_t(e.at)}", e.seq))

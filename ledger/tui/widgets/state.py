@@ -26,6 +26,12 @@ def gauge_line(g: dict[str, Any], wide: bool) -> Text:
     '◉ #63 06-10: 81.8±0.5 vs book 82.0 kg -0.4σ ok'."""
     out = Text("  " if wide else "")
     out.append("◉ ", style="dodger_blue1")
+    if g.get("phase") == "two-phase":  # a range, no estimate (services.gauging)
+        est = f"two-phase {g['min_kg']:,.1f}..{g['max_kg']:,.1f}"
+        out.append(f"#{g['id']} {est} kg " + (f"vs book {g['bookkeeping_kg']:,.1f} kg" if wide else ""))
+        out.append(" no estimate" if g.get("bookkeeping_in_range") else " ⚠ book outside",
+                   style="yellow" if g.get("bookkeeping_in_range") else "bold red")
+        return out
     est = f"{g['propellant_kg']:,.1f}±{g['sigma_kg']:,.1f}"
     if wide:
         out.append(f"#{g['id']} {fmt.when(g.get('at'))[5:10]}: {est} vs book {g['bookkeeping_kg']:,.1f} kg ")

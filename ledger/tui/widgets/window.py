@@ -73,6 +73,8 @@ def status_text(row: dict[str, Any], data: Mapping[str, Any] | None = None, appr
             status += f" {sym} {words}"
     elif kind == "correct":
         status = f"fixes #{row.get('corrects')}"
+    elif kind == "gauge" and data.get("phase") == "two-phase":
+        status = "two-phase: no estimate"
     elif kind == "gauge" and data.get("difference_sigma") is not None:
         status = f"{data['difference_sigma']:+.1f}σ " + ("⚠ BEYOND 3σ" if data.get("flagged") else "within 3σ")
     elif kind == "rebaseline":

@@ -88,7 +88,7 @@ def _grow(snap: Snapshot, prev: LogIndex) -> LogIndex | None:
     by_seq.update((e.seq, e) for e in new)
     events = snap.resolved.events
     m = len(prev.effect)
-    if len(events) >= m and all(prev.effect.get(ev.seq) == i for i, ev in ((m - 1, events[m - 1]),) if m):
+    if len(events) >= m and (m == 0 or prev.effect.get(events[m - 1].seq) == m - 1):
         effect = dict(prev.effect)  # events only appended: the old replay indices hold
         effect.update((ev.seq, i) for i, ev in enumerate(events[m:], start=m))
     else:

@@ -189,3 +189,19 @@ def test_trend_sampling_is_bounded():
     idx = trend.sample_indices(20000, 300)
     assert len(idx) <= 300 and idx[0] == 0 and idx[-1] == 19999
     assert list(trend.sample_indices(5, 300)) == [0, 1, 2, 3, 4]
+
+
+def test_index_grows_on_a_ledger_with_no_replayed_events_yet(tmp_path):
+    """A ledger holding only plans has no replayed events; appending another plan must grow the log index
+    (it raised IndexError: the growth check read the last old event even when there was none)."""
+    from tui_support import CRAFT, create, craftfile  # noqa: PLC0415
+
+    path = str(tmp_path / "plans-only.ledger.json")
+    create(path, craftfile.load_craft(CRAFT), by="tester")
+    led = Ledger(path)
+    led.record("plan", {"engine": "lae", "dv": 5.0}, at=1.8e9, by="fd")
+    ix = browse.index(led.snapshot())
+    led.record("plan", {"engine": "rcs", "dv": 1.0}, at=1.8e9 + 3600, by="fd")
+    grown = browse.index(led.snapshot(), ix)
+    assert grown.order == browse.index(Ledger(path).snapshot()).order
+    assert len(grown.order) == 2  # the two plans

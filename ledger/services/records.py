@@ -99,6 +99,8 @@ def _amount_or_pulses(data: Mapping[str, Any], allowed: tuple[str, ...], what: s
     if all(data.get(k) is None for k in PULSE_FIELDS):
         return _one_amount(data, allowed, what)
     other = next((k for k in allowed if data.get(k) is not None), None)
+    if data.get("pulses") is None:
+        raise InputError("--on-time: only with --pulses (the on-time of each pulse of a pulse train)")
     if other is not None:
         raise InputError(f"{what}: give exactly one of {' | '.join(f'--{k}' for k in allowed)} | --pulses")
     from .pulses import pulse_train  # noqa: PLC0415

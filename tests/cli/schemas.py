@@ -112,22 +112,25 @@ CHECK = {
 
 GAUGE = {
     "$schema": "https://json-schema.org/draft/2020-12/schema", "type": "object",
-    "required": ["tank", "fluid", "method", "pressure_pa", "temperature_k", "pressure_sigma_pa",
-                 "temperature_sigma_k", "propellant_kg", "sigma_kg", "bookkeeping_kg", "bookkeeping_sigma_kg",
-                 "difference_kg", "combined_sigma_kg", "difference_sigma", "flagged", "limit_sigma",
-                 "rebaseline_kg", "rebaseline_sigma_kg", "sigmas", "details", "at", "id", "dry_run", "warnings",
-                 "caution"],
+    "required": ["tank", "fluid", "method", "pressure_pa", "temperature_k", "pressure_sigma_pa", "temperature_sigma_k",
+                 "bookkeeping_kg", "bookkeeping_sigma_kg", "flagged", "sigmas", "details", "at", "id", "dry_run",
+                 "warnings", "caution"],
     "properties": {
         "tank": STR, "fluid": STR, "method": {"type": "string", "enum": ["blowdown PVT", "gas density"]},
         "pressure_pa": NUM, "temperature_k": NUM, "pressure_sigma_pa": NUM, "temperature_sigma_k": NUM,
         "propellant_kg": NUM, "sigma_kg": NUM, "bookkeeping_kg": NUM, "bookkeeping_sigma_kg": NUM,
-        "difference_kg": NUM, "combined_sigma_kg": NUM, "difference_sigma": NUM, "flagged": {"type": "boolean"},
-        "limit_sigma": NUM, "rebaseline_kg": NUM, "rebaseline_sigma_kg": NUM,
-        "sigmas": {"type": "object", "additionalProperties": NUM},
-        "details": {"type": "object", "additionalProperties": NUM},
-        "at": ISO, "id": {"type": ["integer", "null"]}, "dry_run": {"type": "boolean"},
+        "difference_kg": NUM, "combined_sigma_kg": NUM, "difference_sigma": NUM, "rebaseline_kg": NUM,
+        "rebaseline_sigma_kg": NUM, "flagged": {"type": "boolean"}, "limit_sigma": NUM,
+        "phase": {"type": "string", "enum": ["two-phase"]}, "min_kg": NUM, "max_kg": NUM,
+        "bookkeeping_in_range": {"type": "boolean"}, "rebaseline_refused": STR,
+        "sigmas": {"type": "object", "additionalProperties": NUM, "required": ["gas_temperature_offset_k"]},
+        "details": {"type": "object"}, "at": STR, "id": {"type": ["integer", "null"]}, "dry_run": {"type": "boolean"},
         "warnings": {"type": "array", "items": STR}, "caution": STR,
     },
+    "if": {"required": ["phase"]},
+    "then": {"required": ["min_kg", "max_kg", "bookkeeping_in_range", "rebaseline_refused"],
+             "not": {"anyOf": [{"required": ["propellant_kg"]}, {"required": ["sigma_kg"]}]}},
+    "else": {"required": ["propellant_kg", "sigma_kg", "difference_kg", "difference_sigma", "rebaseline_kg"]},
 }
 
 NUM_OR_NULL = {"type": ["number", "null"]}

@@ -2,7 +2,7 @@
 
 Craft and ledgers here are invented test data. Split of a bipropellant draw at mixture ratio r (oxidiser
 over fuel by mass): ox share r/(1+r), fuel share 1/(1+r) (Sutton & Biblarz, Rocket Propulsion Elements,
-9th ed., ch. 2, from memory; docs/sources.md §2).
+9th ed., ch. 2, from memory; docs/sources.md §3).
 """
 from __future__ import annotations
 
@@ -36,7 +36,7 @@ def pair_craft(ox: float, fuel: float, ratio: float, sigma: float | None = None,
 
 
 def test_outage_worked_by_hand_docs_example():
-    # docs/sources.md §2 (computed there by hand): 60 kg ox + 40 kg fuel at 1.65 is oxidiser-limited.
+    # docs/sources.md §3 (computed there by hand): 60 kg ox + 40 kg fuel at 1.65 is oxidiser-limited.
     # Burnable = 60 / (1.65/2.65) = 96.364 kg; fuel used = 60/1.65 = 36.364 kg; fuel stranded = 40 - 36.364 = 3.636.
     craft = pair_craft(60.0, 40.0, 1.65)
     (p,) = pairs(craft)

@@ -102,7 +102,7 @@ class BurnForm(EntryForm):
         box = self.query_one("#burn-warnings", Static)
         if not warnings:
             box.update("")
-            self.query_one("#ok").label = self.OK_LABEL
+            self.relabel(self.OK_LABEL)
             return
         head = ("Confirm: this burn contradicts its plan. Press ctrl+s again to record it with these warnings "
                 "(an executed burn is never refused):" if confirm else
@@ -111,7 +111,14 @@ class BurnForm(EntryForm):
         for w in warnings:
             text.append(f"⚠ {w}\n", style=fmt.COLOUR["attention"])
         box.update(text)
-        self.query_one("#ok").label = "Record anyway  ctrl+s"
+        self.relabel("Record anyway  ctrl+s")
+
+    def relabel(self, label: str) -> None:
+        """The record button's words (its width follows them: a longer label was cut at the old width)."""
+        ok = self.query_one("#ok")
+        if str(ok.label) != label:
+            ok.label = label
+            ok.styles.width = len(label) + 2
 
     def commit(self, values: dict[str, Any]) -> Any:
         warnings = self.plan_warnings(values)

@@ -163,7 +163,7 @@ FLEET_ROW = {
         "pending_plans": {"type": "array", "items": {
             "type": "object", "required": ["id", "engine", "dv_m_s", "at", "approval", "verdict_now"],
             "properties": {"id": {"type": "integer"}, "engine": STR, "dv_m_s": NUM, "at": ISO,
-                           "approval": {"type": "string", "enum": ["approved", "rejected", "stale", "none"]},
+                           "approval": {"type": "string", "enum": ["approved", "rejected", "stale", "none", "partial"]},
                            "verdict_now": {"anyOf": [VERDICT, {"type": "null"}]}}}},
         "warnings": {"type": "array", "items": STR}, "warnings_count": {"type": "integer"},
         "integrity": STR, "last_gauge_at": {"anyOf": [ISO, {"type": "null"}]},

@@ -3,7 +3,7 @@ flown from the mass the craft had at its time, not the mass on board now; a corr
 executes a plan re-works the plan warnings for the corrected content, and status shows those.
 
 Rocket equation: dv = ve ln(m0 / m1), m1 = m0 exp(-dv / ve), ve = Isp g0 (Sutton & Biblarz, Rocket
-Propulsion Elements, 9th ed., eq. 4-6 and 4-7); g0 = 9.80665 m/s^2 (BIPM SI Brochure, 9th ed., standard
+Propulsion Elements, 9th ed., ch. 4, eq. 4-6/4-7, equation numbers from memory); g0 = 9.80665 m/s^2 (BIPM SI Brochure, 9th ed., standard
 acceleration of gravity); 1 lb = 0.45359237 kg exactly (international yard and pound agreement, 1959).
 """
 from __future__ import annotations
@@ -39,16 +39,18 @@ def _log(path):
     return json.loads(run("--ledger", path, "log", "--json", check=True).stdout)
 
 
-@pytest.mark.parametrize("dv_then", [10.0, 12.0])
-def test_back_dated_burn_by_propellant_uses_the_mass_at_its_time(tmp_path, dv_then):
+@pytest.mark.parametrize("dv_then,by", [(10.0, "propellant"), (12.0, "propellant"), (10.0, "duration"),
+                                        (12.0, "duration")])
+def test_back_dated_burn_uses_the_mass_at_its_time(tmp_path, dv_then, by):
     path = _ledger(tmp_path)
     # a later, large burn (200 kg): the craft is much lighter now than on the plan's date
     run("--ledger", path, "burn", "--engine", "lae", "--propellant", "200 kg", "--at", "2026-09-01T00:00:00Z",
         check=True)
     m_then = M_LOADED * math.exp(-5.0 / VE_LAE)        # after the 5 m/s burn, before the back-dated one
     p = m_then * (1.0 - math.exp(-dv_then / VE_LAE))   # propellant that gives dv_then from m_then
-    proc = run("--ledger", path, "burn", "--engine", "lae", "--propellant", f"{p:.6f} kg", "--plan", "2",
-               "--at", AT_PLAN, check=True)
+    # by duration: mass flow = thrust / ve (F = mdot ve, Sutton & Biblarz ch. 2; common practice), thrust 0.44 kN
+    amount = ("--propellant", f"{p:.9f} kg") if by == "propellant" else ("--duration", f"{p / (440.0 / VE_LAE):.9f} s")
+    proc = run("--ledger", path, "burn", "--engine", "lae", *amount, "--plan", "2", "--at", AT_PLAN, check=True)
     said = proc.stdout + proc.stderr
     burn = next(r for r in _log(path) if r["id"] == 4)  # the log is in replay (time) order
     warnings = burn["data"]["plan_warnings"]

@@ -168,3 +168,53 @@ def test_each_colour_has_one_meaning(ledger_path):
             assert "Decision support only" in str(caution.render())
 
     run(go())
+
+
+def test_burn_form_shows_the_plans_execution_warnings_before_recording(ledger_path):
+    """Issue 11 point 3: the burn form shows what recording would store against the plan (services.execution)
+    before it records; a warning that appears only at submit (another process withdrew the plan) stops once
+    for confirmation; the burn is then recorded with it (never refused)."""
+    from textual.widgets import Input, Select, Static  # noqa: PLC0415
+
+    from ledger.tui.dialogs.base import FormDialog  # noqa: PLC0415
+    from tui_support import count, type_text  # noqa: PLC0415
+
+    before = count(ledger_path)
+
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=SIZE) as pilot:
+            await ready(app, pilot)
+            await pilot.press("b")
+            await pilot.pause(0.2)
+            form = app.screen
+            assert isinstance(form, FormDialog)
+            form.query_one("#f-plan", Select).value = 13  # plan 13: lae 8 m/s, never approved
+            await pilot.pause(0.1)
+            box = form.query_one("#f-amount", Input)
+            box.value = ""
+            box.focus()
+            await type_text(pilot, "5 m/s")  # |5 - 8| = 3 m/s > max(10 % of 8, 0.05) = 0.8 m/s
+            await pilot.pause(0.1)
+            shown = str(form.query_one("#burn-warnings", Static).render())
+            assert "plan #13 was never approved" in shown and "achieved dv 5.000 m/s differs" in shown, shown
+            assert "Record anyway" in str(form.query_one("#ok").label)
+            assert count(ledger_path) == before  # shown, nothing written yet
+            Ledger(ledger_path).record("withdraw", {"plan": 13}, by="other")  # another process, meanwhile
+            await until(pilot, lambda: 13 in app.snap.resolved.withdrawn, what="the outside withdrawal")
+            await pilot.press("ctrl+s")
+            await pilot.pause(0.2)
+            assert app.screen is form  # a new warning: shown first, for confirmation
+            shown = str(form.query_one("#burn-warnings", Static).render())
+            assert "Confirm" in shown and "plan #13 was withdrawn" in shown, shown
+            assert "Decision support only" in str(form.query_one("#form-caution", Static).render())
+            assert count(ledger_path) == before + 1  # only the other process's withdrawal
+            await pilot.press("ctrl+s")
+            await pilot.pause(0.3)
+            assert not isinstance(app.screen, FormDialog)
+
+    run(go())
+    e = Ledger(ledger_path).snapshot().entries[-1]
+    assert e.kind == "burn" and e.data["dv"] == 5.0
+    assert any("withdrawn" in w for w in e.data["plan_warnings"])
+    assert any("achieved dv 5.000" in w for w in e.data["plan_warnings"])

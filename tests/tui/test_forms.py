@@ -173,6 +173,10 @@ def test_burn_on_a_plan_withdrawn_meanwhile_is_recorded_with_a_warning(ledger_pa
             await type_text(pilot, "1 m/s") if not screen.query_one("#f-amount").value else None
             await pilot.press("ctrl+s")
             await pilot.pause(0.2)
+            if app.screen is screen:  # the console saw the withdrawal first: a new warning asks to confirm
+                assert "withdrawn" in str(screen.query_one("#burn-warnings", Static).render())
+                await pilot.press("ctrl+s")
+                await pilot.pause(0.2)
             assert app.screen is not screen
 
     run(go())

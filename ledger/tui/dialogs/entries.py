@@ -3,13 +3,15 @@ from __future__ import annotations
 
 from typing import Any
 
+from rich.text import Text
 from textual.widgets import Input, Select, Static
 
 from ...core.entries import BURN, MASS, PLAN, USE, WITHDRAW
 from ...services.ledger import Snapshot
 from .. import fmt
 from . import fields
-from .base import Field, FormDialog, text_field
+from ...errors import LedgerError
+from .base import LATER, Field, FormDialog, text_field
 
 WHEN_HINT = "blank = now; ISO 8601, UTC unless an offset is given"
 
@@ -51,6 +53,10 @@ class BurnForm(EntryForm):
             "('1200 x 50 ms').")
     FOCUS = "amount"
 
+    def __init__(self) -> None:
+        super().__init__()
+        self.shown_warnings: list[str] = []
+
     def make_fields(self) -> list[Field]:
         snap = self.snap
         return [
@@ -61,6 +67,9 @@ class BurnForm(EntryForm):
             *common_tail(),
         ]
 
+    def compose_extra(self):
+        yield Static("", id="burn-warnings")
+
     def field_changed(self, name: str) -> None:
         if name == "plan":
             seq = self.raw("plan")
@@ -70,11 +79,54 @@ class BurnForm(EntryForm):
                 box = self.query_one("#f-amount", Input)
                 if not box.value.strip():
                     box.value = f"{plan.get('dv'):g} m/s"
+        if name in ("plan", "engine", "amount", "at"):
+            values, errors = self.parse_all()
+            self.show_warnings([] if errors else self.plan_warnings(values))
+
+    @staticmethod
+    def _data(values: dict[str, Any]) -> dict[str, Any]:
+        key, amount = values["amount"]
+        return {"engine": values["engine"], **fields.amount_data(key, amount), "plan": values.get("plan")}
+
+    def plan_warnings(self, values: dict[str, Any]) -> list[str]:
+        """What recording this burn would store against its plan (services.execution), nothing written."""
+        from ...services import execution  # noqa: PLC0415
+
+        try:
+            return execution.preview(self.snap, self._data(values), values.get("at"))
+        except LedgerError:
+            return []  # the record call says what is wrong
+
+    def show_warnings(self, warnings: list[str], confirm: bool = False) -> None:
+        """The plan's execution warnings above the buttons; the record button says it records anyway."""
+        self.shown_warnings = list(warnings)
+        box = self.query_one("#burn-warnings", Static)
+        if not warnings:
+            box.update("")
+            self.relabel(self.OK_LABEL)
+            return
+        head = ("Confirm: this burn contradicts its plan. Press ctrl+s again to record it with these warnings "
+                "(an executed burn is never refused):" if confirm else
+                "Recording this burn will store these warnings (it is recorded all the same):")
+        text = Text(head + "\n", style=f"bold {fmt.COLOUR['attention']}")
+        for w in warnings:
+            text.append(f"⚠ {w}\n", style=fmt.COLOUR["attention"])
+        box.update(text)
+        self.relabel("Record anyway  ctrl+s")
+
+    def relabel(self, label: str) -> None:
+        """The record button's words (its width follows them: a longer label was cut at the old width)."""
+        ok = self.query_one("#ok")
+        if str(ok.label) != label:
+            ok.label = label
+            ok.styles.width = len(label) + 2
 
     def commit(self, values: dict[str, Any]) -> Any:
-        key, amount = values["amount"]
-        data = {"engine": values["engine"], **fields.amount_data(key, amount), "plan": values.get("plan")}
-        return self.write(data, values)
+        warnings = self.plan_warnings(values)
+        if warnings and warnings != self.shown_warnings:  # not yet on screen: show them, record next time
+            self.show_warnings(warnings, confirm=True)
+            return LATER
+        return self.write(self._data(values), values)
 
 
 class PlanForm(EntryForm):

@@ -1,8 +1,8 @@
 """The console app: opens a ledger, keeps it live, and carries out what the screens ask.
 
 Loading and reloading run in a worker thread (a 20k-entry ledger takes a good part of a second to
-read the first time); the file is polled with one ``stat`` every 0.3 s, so another process's append
-shows within a second. Writes go through ``LiveLedger`` (the services' own ``record``/``correct``), and
+read the first time); the file is polled with one ``stat`` every 0.3 s (a database ledger: a flag its
+LISTEN connection raises on the server's NOTIFY), so another process's append shows within a second. Writes go through ``LiveLedger`` (the services' own ``record``/``correct``), and
 the panels are redrawn from the snapshot that write leaves behind.
 """
 from __future__ import annotations
@@ -19,6 +19,7 @@ from textual.screen import Screen
 from ..services import browse
 from ..services.ledger import Snapshot, resolve_path
 from ..services.live import LiveLedger
+from ..store.seam import is_url
 from . import actions
 from .dialogs.check import CheckDialog
 from .dialogs.decide import DecideForm
@@ -50,7 +51,7 @@ class LedgerConsole(App):
 
     def __init__(self, path: str, demo: bool = False) -> None:
         super().__init__()
-        self.path = os.path.abspath(path)
+        self.path = path if is_url(path) else os.path.abspath(path)
         self.live = LiveLedger(self.path)
         self.demo = demo                      # invented data: the masthead says DEMO DATA
         self.demo_folder: str | None = None   # a temporary folder this console made, removed on exit
@@ -61,12 +62,13 @@ class LedgerConsole(App):
         self.loaded = threading.Event()      # first snapshot drawn (tests and benchmarks wait on it)
         self._painted_once = threading.Event()
         self._busy = False
+        self.store_note: str | None = None    # "disconnected ..." while a database store is unreachable
         self.lows = LowBounds(self, self._lows_changed)
 
     # --- opening ------------------------------------------------------------------------------------
     def on_mount(self) -> None:
         self.timings["mounted_at"] = time.perf_counter()
-        if os.path.exists(self.path):
+        if self.live.file.exists():
             self.start()
         else:
             from .screens.setup import SetupScreen  # noqa: PLC0415 - yaml and scenarios only on first run
@@ -119,9 +121,25 @@ class LedgerConsole(App):
 
     # --- live -----------------------------------------------------------------------------------------
     def poll(self) -> None:
+        self._watch_store()
         if not self._busy and self.snap is not None and self.live.changed():
             self._busy = True
             self.run_worker(self._reload, thread=True, group="load")
+
+    def _watch_store(self) -> None:
+        """Say so while the database cannot be reached (a ledger file has no such state), and when it is back."""
+        note = self.live.store_note()
+        if note == self.store_note:
+            return
+        was, self.store_note = self.store_note, note
+        if note is not None:
+            if was is None:
+                self.notify(note, title="disconnected", severity="error", timeout=24 * 3600)
+            self.sub_title = "DISCONNECTED: reconnecting"
+        else:
+            self.clear_notifications()
+            self.sub_title = ""
+            self.notify("reconnected to the database; entries re-read", timeout=6)
 
     def _reload(self) -> None:
         try:

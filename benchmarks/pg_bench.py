@@ -24,7 +24,7 @@ sys.path.insert(0, os.path.join(ROOT, "tests", "pg"))
 
 from cluster import OWNER, start_cluster  # noqa: E402
 
-from benchmarks.core_bench import CRAFT, T0, best_child, history  # noqa: E402
+from benchmarks.core_bench import CRAFT, T0, best, best_child, history  # noqa: E402
 from ledger import __version__  # noqa: E402
 from ledger.core.codec import craft_to_dict  # noqa: E402
 from ledger.services.records import make_record  # noqa: E402
@@ -125,6 +125,15 @@ def main() -> None:
             print(f"{'status --json at ' + format(n, ',') + ', best s':34} {f_wall:>10.3f} {d_wall:>10.3f} "
                   f"{'':>10} {d_wall / f_wall:>7.2f}x")
             print(f"{'  its cpu s':34} {f_cpu:>10.3f} {d_cpu:>10.3f}")
+            t_rf = best(lambda: LedgerFile(path).read())
+            dbs = PgStore(url)
+            dbs.read()
+            t_rd = best(lambda: dbs.read())
+            print(f"{'  read in-process, best ms':34} {1e3 * t_rf:>10.1f} {1e3 * t_rd:>10.1f} {'':>10} "
+                  f"{t_rd / t_rf:>7.2f}x")
+            t_bare, c_bare = best_child([sys.executable, "-c", "pass"], env, repeat=5)
+            t_imp, c_imp = best_child([sys.executable, "-c", "import psycopg"], env, repeat=5)
+            print(f"{'  importing psycopg, s (cpu)':34} {'':>10} {t_imp - t_bare:>10.3f} ({c_imp - c_bare:.3f} cpu)")
         print(f"targets: database append at {args.append_size:,} <= 5 ms median "
               f"({'met' if a_db <= 0.005 else 'NOT met'}); status at {args.status_size:,} no slower than the file "
               f"({'met' if d_wall <= f_wall * 1.05 else 'NOT met'}, 5% allowed for noise)")

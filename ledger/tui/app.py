@@ -16,6 +16,7 @@ from typing import Any, Iterable
 from textual.app import App, SystemCommand
 from textual.screen import Screen
 
+from ..errors import LedgerError
 from ..services import browse
 from ..services.ledger import Snapshot, resolve_path
 from ..services.live import LiveLedger
@@ -63,12 +64,18 @@ class LedgerConsole(App):
         self._painted_once = threading.Event()
         self._busy = False
         self.store_note: str | None = None    # "disconnected ..." while a database store is unreachable
+        self._last_try = 0.0
+        self._last_failure = ""
         self.lows = LowBounds(self, self._lows_changed)
 
     # --- opening ------------------------------------------------------------------------------------
     def on_mount(self) -> None:
         self.timings["mounted_at"] = time.perf_counter()
-        if self.live.file.exists():
+        try:
+            found = self.live.file.exists()
+        except LedgerError:  # a database that cannot be reached: the main screen shows the error and retries
+            found = True
+        if found:
             self.start()
         else:
             from .screens.setup import SetupScreen  # noqa: PLC0415 - yaml and scenarios only on first run
@@ -122,7 +129,11 @@ class LedgerConsole(App):
     # --- live -----------------------------------------------------------------------------------------
     def poll(self) -> None:
         self._watch_store()
-        if not self._busy and self.snap is not None and self.live.changed():
+        if self.snap is None and self._last_failure and not self._busy and self.main is not None \
+                and time.monotonic() - self._last_try > 2.0:  # the first read failed: try again every 2 s
+            self._last_try, self._busy = time.monotonic(), True
+            self.run_worker(self._reload, thread=True, group="load")
+        elif not self._busy and self.snap is not None and self.live.changed():
             self._busy = True
             self.run_worker(self._reload, thread=True, group="load")
 
@@ -153,6 +164,9 @@ class LedgerConsole(App):
             self._busy = False
 
     def failed(self, exc: Exception) -> None:
+        if str(exc) == self._last_failure:
+            return  # the same failure again (retried while the store is away): already on screen
+        self._last_failure = str(exc)
         self.notify(f"cannot read the ledger: {exc}", severity="error", timeout=10)
 
     def apply(self, snap: Snapshot) -> None:
@@ -160,7 +174,7 @@ class LedgerConsole(App):
         if snap is self.snap and self.loaded.is_set() and self.live.verified:
             return
         t = time.perf_counter()
-        self.snap = snap
+        self.snap, self._last_failure = snap, ""
         self.ix = browse.index(snap, self.ix)
         self.main.show(snap, self.ix, self.live.verified)
         for screen in self.screen_stack:

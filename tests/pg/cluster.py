@@ -47,7 +47,13 @@ class Cluster:
         self._run(_bin("initdb"), "-D", self.data, "-U", SUPERUSER, "--auth=trust", "--no-sync", "-E", "UTF8",
                   "--locale=C")
 
+    def running(self) -> bool:
+        return self._run(_bin("pg_ctl"), "-D", self.data, "status", check=False).returncode == 0
+
     def start(self) -> None:
+        """Start the server (nothing to do when it already runs)."""
+        if os.path.exists(os.path.join(self.data, "postmaster.pid")) and self.running():
+            return
         opts = f"-k {self.sock} -c listen_addresses='' -c fsync=on -c synchronous_commit=on -c max_connections=60"
         res = self._run(_bin("pg_ctl"), "-D", self.data, "-o", opts, "-l", self.log, "-w", "-t", "60", "start",
                         check=False)

@@ -134,3 +134,12 @@ def test_copy_file_to_database_and_back_same_head(capsys, tmp_path, pg_schema):
 def test_missing_craft_name_is_one_line(capsys, pg_schema):
     code, _, err = run(capsys, "--ledger", f"postgresql://alice@/ledgers?host={pg_schema.sock}", "status")
     assert code == 2 and err.startswith("propledger: error: --ledger: a database address names one craft")
+
+
+def test_handover_on_a_database_craft(capsys, craft_url):
+    """The handover entry is alice's (the session user), for the engineer named by --from; no file backup."""
+    assert run(capsys, "--ledger", craft_url, "mass", "--delta", "-1 kg")[0] == 0
+    code, _, err = run(capsys, "--ledger", craft_url, "handover", "--from", "R. Okafor", "--to", "J. Ito")
+    assert code == 0 and "recorded handover entry 2" in err
+    last = PgStore(craft_url).records()[-1]
+    assert last["kind"] == "handover" and last["by"] == "alice" and last["on_behalf_of"] == "R. Okafor"

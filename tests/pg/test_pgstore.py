@@ -143,3 +143,22 @@ def test_handover_on_a_database_craft(capsys, craft_url):
     assert code == 0 and "recorded handover entry 2" in err
     last = PgStore(craft_url).records()[-1]
     assert last["kind"] == "handover" and last["by"] == "alice" and last["on_behalf_of"] == "R. Okafor"
+
+
+def test_newer_layout_is_refused_and_missing_rights_are_one_line(capsys, pg_schema):
+    pg_schema.psql("CREATE DATABASE later OWNER pl_owner", db="postgres")
+    owner = f"postgresql://pl_owner@/later?host={pg_schema.sock}&craft=s1"
+    assert run(capsys, "--ledger", owner, "init", "--craft", CRAFT_FILE)[0] == 0
+    code, _, err = run(capsys, "--ledger", owner.replace("pl_owner", "alice"), "status")
+    assert code == 2 and "permission denied" in err and err.count("\n") == 1  # no grants in this database
+    pg_schema.psql("INSERT INTO propledger.versions (version) VALUES (99)", db="later", user="pl_owner")
+    code, _, err = run(capsys, "--ledger", owner, "status")
+    assert code == 2 and "layout is version 99, newer than this propledger reads (1)" in err
+
+
+def test_init_without_create_rights_is_one_line(capsys, pg_schema):
+    pg_schema.psql("CREATE DATABASE bare OWNER pl_owner", db="postgres")
+    pg_schema.psql("REVOKE CREATE ON DATABASE bare FROM PUBLIC", db="postgres")
+    code, _, err = run(capsys, "--ledger", f"postgresql://alice@/bare?host={pg_schema.sock}&craft=s1", "init",
+                       "--craft", CRAFT_FILE)
+    assert code == 2 and err.count("\n") == 1 and "permission denied" in err and "nothing was created" in err

@@ -415,13 +415,13 @@ class _Listener(threading.Thread):
         self.down_since: float | None = None
         self.reason = ""
         self.ready = threading.Event()
-        self._stop = threading.Event()
+        self._halt = threading.Event()
 
     def stop(self) -> None:
-        self._stop.set()
+        self._halt.set()
 
     def run(self) -> None:
-        while not self._stop.is_set():
+        while not self._halt.is_set():
             try:
                 with psycopg.connect(self.conninfo, autocommit=True, connect_timeout=CONNECT_TIMEOUT_S,
                                      application_name="propledger-listen") as conn:
@@ -431,7 +431,7 @@ class _Listener(threading.Thread):
                     self.down_since = None
                     self.ready.set()
                     last_ping = time.monotonic()
-                    while not self._stop.is_set():
+                    while not self._halt.is_set():
                         for note in conn.notifies(timeout=0.25):
                             if note.payload.split(" ", 1)[0] == self.craft:
                                 self.generation += 1
@@ -443,4 +443,4 @@ class _Listener(threading.Thread):
                     self.down_since = time.time()
                 self.reason = _first_line(exc)
                 self.ready.set()
-                self._stop.wait(1.0)
+                self._halt.wait(1.0)

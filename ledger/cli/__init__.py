@@ -45,8 +45,9 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-LEDGER_HELP = ("ledger file, before or after the command, e.g. '--ledger sat1.ledger.json' "
-               "(else $PROPLEDGER_LEDGER, else the user data folder)")
+LEDGER_HELP = ("ledger file, before or after the command, e.g. '--ledger sat1.ledger.json', or a PostgreSQL "
+               "craft, e.g. 'postgresql://alice@db/ledgers?craft=sat1' (else $PROPLEDGER_LEDGER, else the user "
+               "data folder)")
 
 
 def _quiet_stdout() -> None:

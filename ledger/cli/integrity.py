@@ -6,9 +6,7 @@ import sys
 
 from ..services.ledger import resolve_path
 from ..store import backup as backups
-from ..store.chain import verify_chain
-from ..store.head import read_heads
-from ..store.ledgerfile import META, head_of, ordered
+from ..store.seam import is_url
 from .common import add_json, console, dump_json, esc, open_ledger, plain, warn
 from .helptext import about
 
@@ -27,13 +25,19 @@ def register(sub) -> None:
     add_json(p)
     p.set_defaults(func=cmd_restore)
 
+    p = sub.add_parser("copy", **about("copy a whole ledger to a new place: file to database or back, same head hash"))
+    p.add_argument("source", metavar="SOURCE", help="the ledger to copy, e.g. sat1.ledger.json")
+    p.add_argument("target", metavar="TARGET", help="where the copy goes (must not exist yet), e.g. "
+                   "'postgresql://ops@db.example/ledgers?craft=sat1'")
+    add_json(p)
+    p.set_defaults(func=cmd_copy)
+
 
 def cmd_verify(args) -> int:
     led = open_ledger(args)
-    doc = led.file.document()  # unreadable, damaged or short of its recorded head: a clear error (exit 2)
-    brk = verify_chain(doc[META]["1"], ordered(doc))
-    seq, head = head_of(doc)
-    heads = read_heads(led.path)
+    brk = led.file.verify()  # unreadable, damaged or short of its recorded head: a clear error (exit 2)
+    seq, head = led.file.head()
+    heads = led.file.recorded_heads()
     if args.json:
         dump_json({"intact": brk is None, "entries": seq, "head": head,
                    "break": None if brk is None else {"seq": brk.seq, "problem": brk.problem},
@@ -42,7 +46,9 @@ def cmd_verify(args) -> int:
         out = console()
         out.print(f"chain intact: {seq} entries, head {head[:16]}")
         newest = max(heads, key=lambda h: h.seq, default=None)
-        if newest is None:
+        if newest is None and is_url(led.path):
+            out.print("the database refuses edits of recorded entries; record the head at each handover")
+        elif newest is None:
             out.print("no chain head recorded outside the ledger yet (run 'propledger backup')")
         else:
             out.print(f"contains the head recorded {esc(newest.recorded)}: entry {newest.seq}")
@@ -51,8 +57,44 @@ def cmd_verify(args) -> int:
     return 0 if brk is None else 1
 
 
+def _file_only(args, command: str) -> str:
+    """The ledger file's path; a database ledger is backed up by its server (e.g. pg_dump), not here."""
+    path = resolve_path(args.ledger)
+    if is_url(path):
+        from ..errors import InputError  # noqa: PLC0415
+
+        raise InputError(f"{command}: a database ledger is backed up and restored by its server (e.g. pg_dump), "
+                         "or copied to a file with 'propledger copy'; nothing was changed")
+    return os.path.abspath(path)
+
+
+def cmd_copy(args) -> int:
+    """Read SOURCE, check its chain, write TARGET with the same records and links, and read it back."""
+    from ..store.seam import adopt_store, open_store  # noqa: PLC0415
+
+    src = open_store(args.source)
+    meta, records = src.read()
+    brk = src.verify()
+    if brk is not None:
+        from ..errors import StoreError  # noqa: PLC0415
+
+        raise StoreError(f"{src.path}: {brk}; not copying a ledger whose chain does not verify; nothing was written")
+    dst = adopt_store(args.target, meta, records)
+    if dst.verify() is not None or dst.head() != src.head():
+        from ..errors import StoreError  # noqa: PLC0415
+
+        raise StoreError(f"{dst.path}: the copy does not read back as the source (head {dst.head()[1][:16]}); "
+                         "remove it before trying again")
+    seq, head = dst.head()
+    if args.json:
+        dump_json({"source": src.path, "target": dst.path, "entries": seq, "head": head})
+    else:
+        console().print(f"copied {seq} entries from {esc(src.path)} to {esc(dst.path)}; head {head[:16]} on both")
+    return 0
+
+
 def cmd_backup(args) -> int:
-    path = os.path.abspath(resolve_path(args.ledger))
+    path = _file_only(args, "backup")
     if args.list_only:
         return _list(path, args.json)
     keep = backups.keep_count(args.keep)
@@ -87,7 +129,7 @@ def _list(path: str, as_json: bool) -> int:
 
 
 def cmd_restore(args) -> int:
-    path = os.path.abspath(resolve_path(args.ledger))
+    path = _file_only(args, "restore")
     done = backups.restore(path, args.source, force=args.force)
     lost = done.recorded_seq is not None and done.recorded_seq > done.seq
     notes = []

@@ -190,9 +190,7 @@ def cmd_log(args) -> int:
     if args.last:
         rows = rows[-args.last:]
     if args.json:
-        from ..store.ledgerfile import ordered  # noqa: PLC0415
-
-        stored = {r["seq"]: r for r in ordered(open_ledger(args).file.document())}
+        stored = {r["seq"]: r for r in open_ledger(args).file.records()}
         dump_json([log_json(r, stored.get(r["id"], {})) for r in rows])
         return 0
     print_log(snap.craft, rows)
@@ -227,6 +225,8 @@ def log_json(row: dict, stored: dict) -> dict:
         out["changes"] = out["data"]["changes"]
     for k in ("hash", "prev", "host", "program"):
         out[k] = stored.get(k)
+    if stored.get("on_behalf_of"):  # database store: --by differed from the authenticated user in 'by'
+        out["on_behalf_of"] = stored["on_behalf_of"]
     return out
 
 

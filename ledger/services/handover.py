@@ -154,6 +154,10 @@ def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, sinc
 
 def _backup(path: str) -> dict[str, Any]:
     """Write a backup (which also records the chain head): its path, or a warning saying why not."""
+    from ..store.seam import is_url  # noqa: PLC0415
+
+    if is_url(path):  # a database is backed up by its server; its rules keep recorded entries from edits
+        return {"backup": None, "failed": False, "warning": None}
     from ..store.backup import make_backup  # noqa: PLC0415 - only when a handover is recorded
 
     try:

@@ -14,8 +14,8 @@ from ..core.craft import Craft
 from ..core.entries import BURN, CORRECT, DECISIONS, HANDOVER, MASS, PLAN, USE, WITHDRAW, Entry, Resolved, apply_correction, resolve
 from ..core.replay import Replay, replay
 from ..errors import InputError, StoreError
-from ..store.chain import Break, verify_chain
-from ..store.ledgerfile import LedgerFile, ordered
+from ..store.chain import Break
+from ..store.seam import Store, create_store, open_store
 from .records import clean_text, entries_from_records, entry_from_record, make_record, validate_data
 from .timefmt import iso, now
 
@@ -52,8 +52,8 @@ class Snapshot:
         return cap.usable(self.craft, self.state)
 
 
-def create(path: str, craft: Craft, by: str | None = None) -> LedgerFile:
-    return LedgerFile.create(path, craft_to_dict(craft), iso(now()), clean_text(by, "--by") or "unknown")
+def create(path: str, craft: Craft, by: str | None = None) -> Store:
+    return create_store(path, craft_to_dict(craft), iso(now()), clean_text(by, "--by") or "unknown")
 
 
 def _warnings(craft: Craft, events: Sequence[Entry], rep: Replay, state: cap.State,
@@ -111,39 +111,29 @@ def assemble(path: str, craft: Craft, meta: Mapping[str, Any], records: Sequence
 
 
 def _verified(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]]) -> Break | None:
-    """The chain check, skipped when these exact file bytes (by SHA-256) verified before.
-
-    Any change to the file changes its digest and brings the full check back; the mark is sealed with
-    the ledger's secret (``store.verifiedmark``); ``propledger verify`` always does the full check.
-    """
-    from ..store import durable, verifiedmark  # noqa: PLC0415
-
-    digest = durable.content_digest(path)
-    if digest and verifiedmark.is_marked(path, digest):
-        return None
-    brk = verify_chain(meta, records)
-    if brk is None and digest:
-        verifiedmark.mark(path, digest)  # sealed with the ledger's secret: a forged mark is ignored
-    return brk
+    """The chain check, skipped when the store knows these exact records verified before (the file store:
+    the same file bytes by SHA-256, under a sealed mark); ``propledger verify`` always does the full check."""
+    return open_store(path).verify_cached(meta, records)
 
 
 VERIFIED_SUFFIX = ".verified"
 
 
 class Ledger:
-    """A ledger file with its use cases. Every call reads the file afresh (another process may write)."""
+    """A ledger with its use cases. Every call reads the store afresh (another process may write).
+
+    ``file`` is the store (a ledger file or a database craft; the name is older than the seam)."""
 
     def __init__(self, path: str):
-        self.file = LedgerFile(path)
+        self.file: Store = open_store(path)
+        self.store = self.file
         self.path = self.file.path
 
     def snapshot(self) -> Snapshot:
-        doc = self.file.document()
-        meta = doc["meta"]["1"]
-        records = ordered(doc)
+        meta, records = self.file.read()
         try:
             with paused_gc():
-                snap = snapshot_from(self.path, meta, records, _verified(self.path, meta, records))
+                snap = snapshot_from(self.path, meta, records, self.file.verify_cached(meta, records))
         except (KeyError, TypeError, ValueError, AttributeError, IndexError, ZeroDivisionError) as exc:
             raise StoreError(f"{self.path}: ledger contents malformed ({type(exc).__name__}: {exc})") from None
         if self.file.notices:

@@ -83,8 +83,13 @@ class LiveLedger(Ledger):
         self.full_rebuilds = 0
 
     def changed(self) -> bool:
-        """Has the file changed since the last snapshot (cheap: one stat)?"""
-        return file_key(self.path) != self._key
+        """Has the ledger changed since the last snapshot (cheap: one stat, or a database notification)?"""
+        return self.file.change_key() != self._key
+
+    def store_note(self) -> str | None:
+        """A line for the console when the store cannot be reached (the database connection is lost), else None."""
+        note = getattr(self.file, "live_note", None)
+        return note() if note is not None else None
 
     @property
     def verified(self) -> bool:
@@ -97,12 +102,10 @@ class LiveLedger(Ledger):
         """The ledger now. ``verify=False`` skips hashing records not yet checked (first paint of a big
         ledger); the snapshot's integrity is then None until ``snapshot()`` is called again."""
         with self._lock:
-            key = file_key(self.path)
+            key = self.file.change_key()
             if self._snap is not None and key == self._key and (self.verified or not verify):
                 return self._snap
-            doc = self.file.document()
-            meta = doc["meta"]["1"]
-            records = self.file.records()
+            meta, records = self.file.read()
             try:
                 with paused_gc():
                     return self._update(key, meta, records, verify)

@@ -215,10 +215,11 @@ def confidence_status(snapshot: Snapshot, confidence: float = DEFAULT_CONFIDENCE
     is called after each chunk of samples."""
     validate(confidence, samples, seed)
     if snapshot.path and snapshot.head[1] and snapshot.integrity is None:
+        from ..store.seam import side_path  # noqa: PLC0415
         from .confcache import cached  # noqa: PLC0415
 
         key = {"head": list(snapshot.head), "confidence": confidence, "samples": samples, "seed": seed}
-        return cached(snapshot.path, key, lambda: _confidence_status(snapshot, confidence, samples, seed, progress))
+        return cached(side_path(snapshot.path), key, lambda: _confidence_status(snapshot, confidence, samples, seed, progress))
     return _confidence_status(snapshot, confidence, samples, seed, progress)
 
 

@@ -186,7 +186,69 @@ class LedgerFile:
                 raise
         return lf
 
+    @classmethod
+    def adopt(cls, path: str, meta: Mapping[str, Any], records: list[Mapping[str, Any]] | Any) -> "LedgerFile":
+        """Write a new ledger holding exactly ``meta`` and ``records`` as another store keeps them (same
+        links, same head: nothing is re-numbered or re-hashed); refused unless their chain verifies."""
+        meta, records = dict(meta), [dict(r) for r in records]
+        brk = verify_chain(meta, records)
+        if brk is not None:
+            raise StoreError(f"{path}: not copying a ledger whose {brk}; nothing was written")
+        if not isinstance(meta.get("schema"), int) or meta["schema"] > SCHEMA:
+            raise StoreError(f"{path}: the source's craft link has schema {meta.get('schema')!r}; this propledger "
+                             f"writes files of schema {SCHEMA}; nothing was written")
+        lf = cls(path)
+        folder = os.path.dirname(lf.path)
+        if not os.path.isdir(folder):
+            raise StoreError(f"{lf.path}: folder {folder} does not exist")
+        with lf.locked():
+            if os.path.lexists(lf.path) or any(os.path.lexists(p) for p in (*head_paths(lf.path), backup_folder(lf.path))):
+                raise StoreError(f"{lf.path}: already exists (or its head record or backups do); refusing to "
+                                 "overwrite it; nothing was written")
+            table = {str(r["seq"]): r for r in records}
+            durable.write_document(lf.path, {META: {"1": meta}, ENTRIES: table}, exclusive=True)
+            seq, h = head_of({META: {"1": meta}, ENTRIES: table})
+            write_heads(lf.path, seq, h, meta["hash"], utc_stamp())
+        return lf
+
     # --- reading -----------------------------------------------------------------------------
+    def exists(self) -> bool:
+        return os.path.exists(self.path)
+
+    def read(self) -> tuple[dict[str, Any], list[dict[str, Any]]]:
+        """The craft link and the entry records in sequence order, from one read of the file."""
+        doc = self.document()
+        return doc[META]["1"], ordered(doc)
+
+    def change_key(self) -> tuple[int, int, int] | None:
+        """(inode, size, mtime_ns): an atomic replace changes the inode, an append the size and mtime."""
+        try:
+            st = os.stat(self.path)
+        except OSError:
+            return None
+        return (st.st_ino, st.st_size, st.st_mtime_ns)
+
+    def verify_cached(self, meta: Mapping[str, Any], records: list[Mapping[str, Any]] | Any) -> Break | None:
+        """The chain check, skipped when these exact file bytes (by SHA-256) verified before.
+
+        Any change to the file changes its digest and brings the full check back; the mark is sealed with
+        the ledger's secret (``verifiedmark``); ``propledger verify`` always does the full check."""
+        from . import verifiedmark  # noqa: PLC0415
+
+        digest = durable.content_digest(self.path)
+        if digest and verifiedmark.is_marked(self.path, digest):
+            return None
+        brk = verify_chain(meta, records)
+        if brk is None and digest:
+            verifiedmark.mark(self.path, digest)  # sealed with the ledger's secret: a forged mark is ignored
+        return brk
+
+    def recorded_heads(self) -> list[Any]:
+        """Chain heads recorded outside the ledger (beside it and in its backup folder)."""
+        from .head import read_heads  # noqa: PLC0415
+
+        return read_heads(self.path)
+
     def check(self, doc: Mapping[str, Any]) -> None:
         """Layout and recorded head; raises StoreError (with the recovery hint when a backup would help)."""
         try:

@@ -1,8 +1,8 @@
 """The console app: opens a ledger, keeps it live, and carries out what the screens ask.
 
 Loading and reloading run in a worker thread (a 20k-entry ledger takes a good part of a second to
-read the first time); the file is polled with one ``stat`` every 0.3 s, so another process's append
-shows within a second. Writes go through ``LiveLedger`` (the services' own ``record``/``correct``), and
+read the first time); the file is polled with one ``stat`` every 0.3 s (a database ledger: a flag its
+LISTEN connection raises on the server's NOTIFY), so another process's append shows within a second. Writes go through ``LiveLedger`` (the services' own ``record``/``correct``), and
 the panels are redrawn from the snapshot that write leaves behind.
 """
 from __future__ import annotations
@@ -17,9 +17,11 @@ from typing import Any, Iterable
 from textual.app import App, SystemCommand
 from textual.screen import Screen
 
+from ..errors import LedgerError
 from ..services import browse
 from ..services.ledger import Snapshot, resolve_path
 from ..services.live import LiveLedger
+from ..store.seam import is_url
 from . import actions, fmt
 from .dialogs.check import CheckDialog
 from .dialogs.decide import DecideForm
@@ -70,7 +72,7 @@ class LedgerConsole(App):
 
     def __init__(self, path: str, demo: bool = False) -> None:
         super().__init__()
-        self.path = os.path.abspath(path)
+        self.path = path if is_url(path) else os.path.abspath(path)
         self.live = LiveLedger(self.path)
         self.demo = demo                      # invented data: the masthead says DEMO DATA
         self.demo_folder: str | None = None   # a temporary folder this console made, removed on exit
@@ -81,6 +83,9 @@ class LedgerConsole(App):
         self.loaded = threading.Event()      # first snapshot drawn (tests and benchmarks wait on it)
         self._painted_once = threading.Event()
         self._busy = False
+        self.store_note: str | None = None    # "disconnected ..." while a database store is unreachable
+        self._last_try = 0.0
+        self._last_failure = ""
         self.lows = LowBounds(self, self._lows_changed)
         self.register_theme(console_theme())
         self.theme = THEME
@@ -89,7 +94,11 @@ class LedgerConsole(App):
     # --- opening ------------------------------------------------------------------------------------
     def on_mount(self) -> None:
         self.timings["mounted_at"] = time.perf_counter()
-        if os.path.exists(self.path):
+        try:
+            found = self.live.file.exists()
+        except LedgerError:  # a database that cannot be reached: the main screen shows the error and retries
+            found = True
+        if found:
             self.start()
         else:
             from .screens.setup import SetupScreen  # noqa: PLC0415 - yaml and scenarios only on first run
@@ -142,9 +151,29 @@ class LedgerConsole(App):
 
     # --- live -----------------------------------------------------------------------------------------
     def poll(self) -> None:
-        if not self._busy and self.snap is not None and self.live.changed():
+        self._watch_store()
+        if self.snap is None and self._last_failure and not self._busy and self.main is not None \
+                and time.monotonic() - self._last_try > 2.0:  # the first read failed: try again every 2 s
+            self._last_try, self._busy = time.monotonic(), True
+            self.run_worker(self._reload, thread=True, group="load")
+        elif not self._busy and self.snap is not None and self.live.changed():
             self._busy = True
             self.run_worker(self._reload, thread=True, group="load")
+
+    def _watch_store(self) -> None:
+        """Say so while the database cannot be reached (a ledger file has no such state), and when it is back."""
+        note = self.live.store_note()
+        if note == self.store_note:
+            return
+        was, self.store_note = self.store_note, note
+        if note is not None:
+            if was is None:
+                self.notify(note, title="disconnected", severity="error", timeout=24 * 3600)
+            self.sub_title = "DISCONNECTED: reconnecting"
+        else:
+            self.clear_notifications()
+            self.sub_title = ""
+            self.notify("reconnected to the database; entries re-read", timeout=6)
 
     def _reload(self) -> None:
         try:
@@ -158,6 +187,9 @@ class LedgerConsole(App):
             self._busy = False
 
     def failed(self, exc: Exception) -> None:
+        if str(exc) == self._last_failure:
+            return  # the same failure again (retried while the store is away): already on screen
+        self._last_failure = str(exc)
         self.notify(f"cannot read the ledger: {exc}", severity="error", timeout=10)
 
     def apply(self, snap: Snapshot) -> None:
@@ -165,7 +197,7 @@ class LedgerConsole(App):
         if snap is self.snap and self.loaded.is_set() and self.live.verified:
             return
         t = time.perf_counter()
-        self.snap = snap
+        self.snap, self._last_failure = snap, ""
         self.ix = browse.index(snap, self.ix)
         self.main.show(snap, self.ix, self.live.verified)
         for screen in self.screen_stack:

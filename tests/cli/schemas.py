@@ -21,7 +21,7 @@ LOG_ROW = {
         "data": {**SI_DATA, "properties": {**SI_DATA["properties"], "changes": {
             **SI_DATA, "properties": {**SI_DATA["properties"], "at": ISO}}}},
         "changes": {"type": "object", "properties": {"at": ISO}},
-        "hash": HASH, "prev": HASH, "host": STR, "program": STR,
+        "hash": HASH, "prev": HASH, "host": STR, "program": STR, "on_behalf_of": STR,
         "mass_after_kg": NUM, "propellant_kg": NUM, "dv_m_s": NUM,
         "drawn_kg": {"type": "object", "additionalProperties": NUM},
     },

@@ -53,6 +53,10 @@ class SetupScreen(Screen):
         box.add_class("shown")
 
     def _prepare(self) -> None:
+        from ...store.seam import is_url  # noqa: PLC0415
+
+        if is_url(self.path):  # a database craft: the server holds it, no folder to make
+            return
         folder = os.path.dirname(os.path.abspath(self.path))
         os.makedirs(folder, exist_ok=True)
 

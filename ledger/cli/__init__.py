@@ -14,7 +14,8 @@ import threading
 from ..errors import LedgerError
 
 COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.approvals", "ledger.cli.gauging",
-                   "ledger.cli.demo", "ledger.cli.handover", "ledger.cli.integrity")
+                   "ledger.cli.demo", "ledger.cli.handover", "ledger.cli.integrity",
+                   "ledger.cli.importing")
 EXIT_ERROR = 2
 
 

@@ -78,7 +78,8 @@ def cmd_import(args) -> int:
 
 def describe(row: dict) -> str:
     """One entry of an import summary as a line of text."""
-    amount = next((f"{k} {row[k]:.4f} {u}" for k, u in (("dv", "m/s"), ("duration", "s"), ("propellant", "kg"))
+    amount = next((f"{k.split('_')[0]} {row[k]:.4f} {u}" for k, u in (("dv_m_s", "m/s"), ("duration_s", "s"),
+                                                                      ("propellant_kg", "kg"))
                    if row.get(k) is not None), "")
     sigma = f" (sigma {row['sigma']:.4f})" if row.get("sigma") is not None else ""
     dm = f", DELTA_MASS {row['delta_mass_kg']:.3f} kg" if row.get("delta_mass_kg") is not None else ""

@@ -102,7 +102,7 @@ def _library_error(path: str, text: str, exc: Exception) -> InputError:
     msg = " ".join(str(exc).split())
     m = re.search(r"at line (\d+)", msg)
     line = int(m.group(1)) if m else None
-    if line is None:
+    if line is None and not msg.startswith("Missing"):  # a missing key has no line to point at
         for token in re.findall(r"'([^']+)'|\b([A-Z][A-Z0-9_]{3,})\b", msg):
             tok = token[0] or token[1]
             if tok in ("KVN", "CCSDS", "XML"):
@@ -160,7 +160,20 @@ def _time_system(path: str, text: str, value: Any) -> str:
 
 
 # --- reading -------------------------------------------------------------------------------------
+_KVN_DELTA_MASS = re.compile(r"^\s*(MAN_DELTA_MASS)\s*=\s*\+?(\d+\.?\d*(?:[eE][-+]?\d+)?)")
+
+
+def _positive_mass(path: str, text: str) -> None:
+    """An OPM's positive MAN_DELTA_MASS, named by line before the library refuses it in its own words."""
+    for n, line in enumerate(text.splitlines(), 1):
+        m = _KVN_DELTA_MASS.match(line)
+        if m and float(m.group(2)) > 0:
+            raise InputError(f"{path} line {n}: {m.group(1)} = {m.group(2)} kg is positive; expected a negative "
+                             "mass change (propellant spent)")
+
+
 def _parse(path: str, text: str):
+    _positive_mass(path, text)
     try:
         import ccsds_ndm  # noqa: PLC0415 - only when a message is imported
     except ImportError:  # pragma: no cover - a dependency of the package
@@ -218,16 +231,42 @@ def _opm(path, text, obj, encoding, version, key, msg, executed) -> Message:
                    wet_mass_kg=float(sc.mass) if sc is not None and sc.mass is not None else None)
 
 
+def _kvn_keyword(text: str, block: int, keyword: str) -> str | None:
+    """A keyword's value in the ``block``-th MAN_START..MAN_STOP of a KVN message, with the lines a
+    printed message wraps it over joined back (the standard's figures wrap MAN_COMPOSITION; a
+    continuation line has no '=' and starts with a letter)."""
+    lines = text.splitlines()
+    start = _nth_line(text, "MAN_START", block)
+    if start is None:
+        return None
+    for i in range(start, len(lines)):
+        line = lines[i].strip()
+        if line.startswith("MAN_STOP"):
+            return None
+        key, eq, value = line.partition("=")
+        if eq and key.strip() == keyword:
+            parts = [value.strip().replace("<cont.>", "").strip()]
+            for nxt in lines[i + 1:]:
+                nxt = nxt.strip()
+                if "=" in nxt or not nxt[:1].isalpha() or nxt.startswith(("COMMENT", "MAN_STOP")):
+                    break
+                parts.append(nxt.replace("<cont.>", "").strip())
+            return " ".join(p.rstrip(",") + ("," if p.endswith(",") else "") for p in parts if p)
+    return None
+
+
 def _elements(composition: str) -> list[str]:
     return [e for e in re.split(r"[,\s]+", composition.strip()) if e]
 
 
-def _units(path: str, line: int | None, m, elements: list[str]) -> None:
+def _units(path: str, line: int | None, man_units: str | None, elements: list[str]) -> None:
     """MAN_UNITS, when given, must repeat the mandatory units of the elements the ledger reads."""
-    if not m.man_units:
+    if not man_units:
         return
-    units = [u.strip() for u in str(m.man_units).strip().strip("[]").split(",")]
+    units = [u.strip() for u in str(man_units).strip().strip("[]").split(",")]
     after = [e for e in elements if not e.startswith("TIME_")]
+    if len(units) == len(elements) and len(units) == len(after) + 1:
+        units = units[1:]  # a unit given for the time tag too (as annex G figure G-17 does): 'n/a'
     if len(units) != len(after):
         raise InputError(f"{_at(path, line, 'MAN_UNITS')}: {len(units)} units for {len(after)} elements of "
                          f"MAN_COMPOSITION; expected one unit per element after the time tag")
@@ -262,8 +301,12 @@ def _ocm(path, text, obj, encoding, version, key, msg) -> Message:
         if not basis:
             raise InputError(f"{where}: MAN_BASIS missing; expected {', '.join(PLAN_BASES)} (a plan) or "
                              f"{', '.join(EXECUTED_BASES)} (an executed burn)")
-        elements = _elements(str(m.man_composition))
-        _units(path, _line_of(text, "MAN_UNITS", id_line or 1), m, elements)
+        composition, man_units = m.man_composition, m.man_units
+        if encoding == "kvn":  # the text itself, with wrapped lines joined (the library keeps the first line)
+            composition = _kvn_keyword(text, k, "MAN_COMPOSITION") or composition
+            man_units = _kvn_keyword(text, k, "MAN_UNITS") or man_units
+        elements = _elements(str(composition))
+        _units(path, _line_of(text, "MAN_UNITS", id_line or 1), man_units, elements)
         times = [e for e in elements if e in ("TIME_ABSOLUTE", "TIME_RELATIVE")]
         if len(times) != 1 or elements[0] != times[0]:
             raise InputError(f"{_at(path, _line_of(text, 'MAN_COMPOSITION', id_line or 1), 'MAN_COMPOSITION')}: "

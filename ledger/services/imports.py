@@ -146,6 +146,8 @@ def _close(a: Any, b: Any) -> bool:
 
 
 AMOUNTS = ("dv", "duration", "propellant")
+AMOUNT_KEYS = {"dv": "dv_m_s", "duration": "duration_s", "propellant": "propellant_kg"}
+"""Summary keys carry their unit, as every --json output does (docs/json.md)."""
 
 
 def differences(current: Entry, cand: Candidate) -> dict[str, Any]:
@@ -300,15 +302,15 @@ def summary(prepared: Prepared, dry_run: bool) -> dict[str, Any]:
         c = a.candidate
         row = {"action": a.what, "kind": c.kind, "at": iso(c.at), "engine": c.data.get("engine"),
                "id": a.seq, "what": c.label, "source": dict(c.source)}
-        for f in AMOUNTS:
+        for f, unit in AMOUNT_KEYS.items():
             if c.data.get(f) is not None:
-                row[f] = c.data[f]
+                row[unit] = c.data[f]
         if c.data.get("sigma") is not None:
             row["sigma"] = c.data["sigma"]
         if a.target is not None and a.what == "correct":
             row["corrects"] = a.target
-        if c.delta_mass_kg is not None:
-            row["delta_mass_kg"] = c.delta_mass_kg
+        if c.source.get("delta_mass_kg") is not None:
+            row["delta_mass_kg"] = c.source["delta_mass_kg"]
         rows.append(row)
     return {"file": prepared.read.path, "sha256": prepared.read.sha256, "format": prepared.read.format,
             "dry_run": dry_run, "already_imported": prepared.already, "entries": rows,

@@ -367,9 +367,30 @@ def _ocm(path, text, obj, encoding, version, key, msg) -> Message:
             man.sigma_pct = 100.0 * man.sigma_m_s / man.dv_m_s
         mans.append(man)
     phys = seg.data.phys
-    return Message("ocm", encoding, version, key, msg, ts, md.object_name, mans,
-                   wet_mass_kg=getattr(phys, "wet_mass", None) if phys is not None else None,
-                   dry_mass_kg=getattr(phys, "dry_mass", None) if phys is not None else None)
+    wet = getattr(phys, "wet_mass", None) if phys is not None else None
+    dry = getattr(phys, "dry_mass", None) if phys is not None else None
+    if phys is None and encoding == "xml":
+        wet, dry = _xml_masses(text)
+    return Message("ocm", encoding, version, key, msg, ts, md.object_name, mans, wet_mass_kg=wet, dry_mass_kg=dry)
+
+
+def _xml_masses(text: str) -> tuple[float | None, float | None]:
+    """WET_MASS and DRY_MASS of an XML OCM's <phys> block, read with the standard library: ccsds-ndm-py
+    0.0.9 drops that block when it reads XML (it reads it from KVN)."""
+    import xml.etree.ElementTree as ET  # noqa: PLC0415, S405 - a message the library has already parsed
+
+    try:
+        root = ET.fromstring(text)
+    except ET.ParseError:
+        return None, None
+    out = []
+    for tag in ("WET_MASS", "DRY_MASS"):
+        node = root.find(f".//phys/{tag}")
+        try:
+            out.append(float(node.text) if node is not None and node.text else None)
+        except ValueError:
+            out.append(None)
+    return out[0], out[1]
 
 
 # --- to ledger candidates ------------------------------------------------------------------------

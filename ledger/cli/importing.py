@@ -16,15 +16,15 @@ def register(sub) -> None:
                                          "telemetry CSV, exactly once"))
     p.add_argument("file", metavar="FILE", help="the message or CSV file, e.g. plan-0042.ocm or firings-2026-12-02.csv")
     p.add_argument("--format", choices=FORMATS,
-                   help="opm, ocm or firings (default: ocm/opm as the message says; firings for a .csv file)")
-    p.add_argument("--dry-run", action="store_true", help="show exactly what would be recorded, with every warning; write nothing")
+                   help="opm, ocm or firings, e.g. --format firings (default: as the message says; firings for a .csv file)")
+    p.add_argument("--dry-run", action="store_true", help="show exactly what would be recorded, with every warning; write nothing (e.g. before a real import)")
     p.add_argument("--group", choices=GROUPS, default="pass",
                    help="firings only: sum rows per pass (quiet gap, import.firings.pass_gap), per orbit "
-                        "(import.firings.orbit_period) or not at all; default pass")
+                        "(import.firings.orbit_period) or not at all, e.g. --group orbit; default pass")
     p.add_argument("--engine", help="OPM only (it names no device): the engine of its manoeuvres, e.g. lae")
     p.add_argument("--executed", action="store_true",
-                   help="OPM only: its manoeuvres are executed burns (default: plans, as an OPM's manoeuvre "
-                        "parameters usually are)")
+                   help="OPM only: its manoeuvres are executed burns, e.g. a reconstruction (default: plans, "
+                        "as an OPM's manoeuvre parameters usually are)")
     p.add_argument("--craft", help="take the import: section (devices, firings columns) from this craft file "
                                    "instead of the one the ledger was created with, e.g. craft.yaml")
     p.add_argument("--by", help="who records it, e.g. 'R. Okafor' (default: the operating-system user)")
@@ -33,11 +33,11 @@ def register(sub) -> None:
 
     p = sub.add_parser("export", **about("write the executed and pending manoeuvres and the current mass for "
                                          "flight dynamics (CCSDS OCM)"))
-    p.add_argument("--format", choices=("ocm",), default="ocm", help="ocm (the only format), default ocm")
-    p.add_argument("--xml", action="store_true", help="write XML instead of KVN")
+    p.add_argument("--format", choices=("ocm",), default="ocm", help="ocm (the only format), e.g. --format ocm; default ocm")
+    p.add_argument("--xml", action="store_true", help="write XML instead of KVN, e.g. for an XML-only flight-dynamics system")
     p.add_argument("--out", required=True, help="file to write, e.g. propledger-mass.ocm (never the ledger)")
-    p.add_argument("--force", action="store_true", help="replace --out if it exists")
-    p.add_argument("--originator", default="PROPLEDGER", help="ORIGINATOR in the header, default PROPLEDGER")
+    p.add_argument("--force", action="store_true", help="replace --out if it exists, e.g. a nightly export")
+    p.add_argument("--originator", default="PROPLEDGER", help="ORIGINATOR in the header, e.g. 'SAT1 OPS'; default PROPLEDGER")
     add_json(p)
     p.set_defaults(func=cmd_export)
 
@@ -130,7 +130,8 @@ def cmd_export(args) -> int:
     snap = led.snapshot()
     text, counts = ccsds_export.ocm_text(snap, xml=args.xml, originator=args.originator)
     outpaths.write_atomic(target, text, force=args.force)
-    data = {"out": target, "format": "ocm", "encoding": "xml" if args.xml else "kvn", **counts}
+    data = {"out": target, "format": "ocm", "encoding": "xml" if args.xml else "kvn", **counts,
+            "caution": CAUTION}
     if args.json:
         dump_json(data)
     else:

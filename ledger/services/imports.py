@@ -28,6 +28,8 @@ NATIVE_PREFIX = "PROPLEDGER-"
 MAX_BYTES = 32 << 20
 """A message or a day of firings is far smaller; bounds the work on a wrong file."""
 AT_SLACK_S = 5e-4
+CAUTION = ("decision support only: verify against the mission's flight-dynamics system of record, its mission "
+           "rules and the responsible engineers")
 REL = 1e-9
 
 
@@ -317,7 +319,7 @@ def summary(prepared: Prepared, dry_run: bool) -> dict[str, Any]:
             "recorded": sum(1 for a in prepared.actions if a.what == "record"),
             "corrected": sum(1 for a in prepared.actions if a.what == "correct"),
             "unchanged": sum(1 for a in prepared.actions if a.what == "same"),
-            "warnings": list(prepared.warnings)}
+            "warnings": list(prepared.warnings), "caution": CAUTION}
 
 
 def source_line(source: Mapping[str, Any] | None) -> str | None:

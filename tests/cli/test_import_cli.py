@@ -255,3 +255,13 @@ def test_export_reads_back_with_the_library_and_imports_as_nothing_new(led, tmp_
 def test_export_never_writes_over_the_ledger(led, tmp_path):
     code, _, err = cli("--ledger", led, "export", "--out", led)
     assert code == 2 and "is the ledger" in err
+
+
+def test_a_recounted_firings_file_corrects_its_group_and_leaves_the_others(led, tmp_path):
+    assert cli("--ledger", led, "import", write(tmp_path, "day.csv", firings_csv()))[0] == 0
+    recount = firings_csv().replace(",RCS-1B,100,2", ",RCS-1B,160,2")  # first row of the first pass
+    code, out, _ = cli("--ledger", led, "import", write(tmp_path, "day-v2.csv", recount), "--json")
+    doc = json.loads(out)
+    assert (doc["recorded"], doc["corrected"], doc["unchanged"]) == (0, 1, 1)
+    fix = next(r for r in log(led) if r["kind"] == "correct")
+    assert fix["changes"]["duration_s"] == pytest.approx(0.81)  # 0.75 s + 60 ms

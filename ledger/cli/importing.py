@@ -51,15 +51,10 @@ def _config(args):
 
 
 def reader_for(args):
-    """The reader for FILE: firings for --format firings or a .csv file, else a CCSDS message."""
-    fmt = args.format
-    if fmt == "firings" or (fmt is None and args.file.lower().endswith(".csv")):
-        from ..services import firings_import  # noqa: PLC0415
+    from ..services.imports import reader_for as make  # noqa: PLC0415
 
-        return firings_import.reader(args.file, args.group, config=_config(args))
-    from ..services import ccsds_import  # noqa: PLC0415
-
-    return ccsds_import.reader(args.file, fmt, engine=args.engine, opm_executed=args.executed, config=_config(args))
+    return make(args.file, args.format, group=args.group, engine=args.engine, executed=args.executed,
+                config=_config(args))
 
 
 def cmd_import(args) -> int:
@@ -76,46 +71,9 @@ def cmd_import(args) -> int:
     return 0
 
 
-def describe(row: dict) -> str:
-    """One entry of an import summary as a line of text."""
-    amount = next((f"{k.split('_')[0]} {row[k]:.4f} {u}" for k, u in (("dv_m_s", "m/s"), ("duration_s", "s"),
-                                                                      ("propellant_kg", "kg"))
-                   if row.get(k) is not None), "")
-    sigma = f" (sigma {row['sigma']:.4f})" if row.get("sigma") is not None else ""
-    dm = f", DELTA_MASS {row['delta_mass_kg']:.3f} kg" if row.get("delta_mass_kg") is not None else ""
-    pulses = row["source"].get("pulses")
-    pulses = f", {pulses} pulses" if pulses is not None else ""
-    return f"{row['kind']} {row['engine']} {amount}{sigma} at {row['at']}{dm}{pulses} [{row['what']}]"
-
-
-def summary_lines(data: dict) -> list[str]:
-    """The summary as plain lines: shared by the command and the console's import screen."""
-    lines = []
-    verb = "would record" if data["dry_run"] else "recorded"
-    if data["already_imported"]:
-        ids = data["already_imported"]
-        lines.append(f"{data['file']}: already imported (sha256 {data['sha256'][:12]}, entries "
-                     f"{ids[0]}-{ids[-1]}); nothing {'would be' if data['dry_run'] else 'was'} recorded")
-        return lines
-    for row in data["entries"]:
-        if row["action"] == "record":
-            head = f"{'would record' if data['dry_run'] else 'recorded entry ' + str(row['id'])}"
-        elif row["action"] == "correct":
-            head = (f"{'would correct' if data['dry_run'] else 'recorded correction ' + str(row['id']) + ' of'}"
-                    f" entry {row['corrects']}")
-        else:
-            head = f"unchanged (entry {row['id']})"
-        lines.append(f"{head}: {describe(row)}")
-    new = data["recorded"] + data["corrected"]
-    if new == 0:
-        lines.append(f"{data['file']}: nothing new; every manoeuvre is already in the ledger as given")
-    else:
-        lines.append(f"{data['file']}: {verb} {data['recorded']} new, {data['corrected']} corrected, "
-                     f"{data['unchanged']} unchanged" + (" (dry run: nothing written)" if data["dry_run"] else ""))
-    return lines
-
-
 def print_summary(data: dict) -> None:
+    from ..services.imports import summary_lines  # noqa: PLC0415
+
     out = console()
     for line in summary_lines(data):
         out.print(esc(line))

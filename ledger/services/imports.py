@@ -342,5 +342,57 @@ def source_line(source: Mapping[str, Any] | None) -> str | None:
     return ", ".join(parts)
 
 
-__all__ = ["Candidate", "Read", "Action", "Prepared", "prepare", "run", "summary", "source_line", "identities",
+def reader_for(path: str, fmt: str | None = None, *, group: str = "pass", engine: str | None = None,
+               executed: bool = False, config: dict | None = None) -> Callable[[Snapshot], Read]:
+    """The reader for a file: firings for ``fmt`` 'firings' or a .csv file, else a CCSDS OPM or OCM."""
+    if fmt == "firings" or (fmt is None and path.lower().endswith(".csv")):
+        from . import firings_import  # noqa: PLC0415
+
+        return firings_import.reader(path, group, config=config)
+    from . import ccsds_import  # noqa: PLC0415 - the CCSDS library only for a message
+
+    return ccsds_import.reader(path, fmt, engine=engine, opm_executed=executed, config=config)
+
+
+def describe(row: Mapping[str, Any]) -> str:
+    """One entry of an import summary as a line of text."""
+    amount = next((f"{k.split('_')[0]} {row[k]:.4f} {u}" for k, u in (("dv_m_s", "m/s"), ("duration_s", "s"),
+                                                                      ("propellant_kg", "kg"))
+                   if row.get(k) is not None), "")
+    sigma = f" (sigma {row['sigma']:.4f})" if row.get("sigma") is not None else ""
+    dm = f", DELTA_MASS {row['delta_mass_kg']:.3f} kg" if row.get("delta_mass_kg") is not None else ""
+    pulses = row["source"].get("pulses")
+    pulses = f", {pulses} pulses" if pulses is not None else ""
+    return f"{row['kind']} {row['engine']} {amount}{sigma} at {row['at']}{dm}{pulses} [{row['what']}]"
+
+
+def summary_lines(data: Mapping[str, Any]) -> list[str]:
+    """The summary as plain lines: shared by the command and the console's import screen."""
+    lines = []
+    dry = data["dry_run"]
+    if data["already_imported"]:
+        ids = data["already_imported"]
+        lines.append(f"{os.path.basename(data['file'])}: already imported (sha256 {data['sha256'][:12]}, entries "
+                     f"{ids[0]}-{ids[-1]}); nothing {'would be' if dry else 'was'} recorded")
+        return lines
+    for row in data["entries"]:
+        if row["action"] == "record":
+            head = "would record" if dry else f"recorded entry {row['id']}"
+        elif row["action"] == "correct":
+            head = f"would correct entry {row['corrects']}" if dry else \
+                f"recorded correction {row['id']} of entry {row['corrects']}"
+        else:
+            head = f"unchanged (entry {row['id']})"
+        lines.append(f"{head}: {describe(row)}")
+    name = os.path.basename(data["file"])
+    if data["recorded"] + data["corrected"] == 0:
+        lines.append(f"{name}: nothing new; every manoeuvre is already in the ledger as given")
+    else:
+        lines.append(f"{name}: {'would record' if dry else 'recorded'} {data['recorded']} new, "
+                     f"{data['corrected']} corrected, {data['unchanged']} unchanged"
+                     + (" (dry run: nothing written)" if dry else ""))
+    return lines
+
+
+__all__ = ["reader_for", "summary_lines", "describe", "Candidate", "Read", "Action", "Prepared", "prepare", "run", "summary", "source_line", "identities",
            "read_bytes", "text_of", "base_source", "NATIVE_PREFIX"]

@@ -265,3 +265,17 @@ def test_a_recounted_firings_file_corrects_its_group_and_leaves_the_others(led, 
     assert (doc["recorded"], doc["corrected"], doc["unchanged"]) == (0, 1, 1)
     fix = next(r for r in log(led) if r["kind"] == "correct")
     assert fix["changes"]["duration_s"] == pytest.approx(0.81)  # 0.75 s + 60 ms
+
+
+@pytest.mark.parametrize("name, content", [
+    ("empty.ocm", b""), ("noise.ocm", bytes(range(256)) * 2), ("cut.xml", b'<ocm version="3.0"><header>'),
+    ("oem.kvn", b"CCSDS_OEM_VERS = 2.0\nCREATION_DATE = 2020-01-01T00:00:00\nORIGINATOR = X\n"),
+    ("header.csv", b"utc,thr,on_ms\n"), ("short.csv", b"utc,thr,on_ms\n2026-12-02T00:00:00Z,RCS-1A\n"),
+])
+def test_junk_is_a_clear_error_never_an_internal_one(led, tmp_path, name, content):
+    f = tmp_path / name
+    f.write_bytes(content)
+    before = _state(led)
+    code, _, err = cli("--ledger", led, "import", str(f))
+    assert code == 2 and err.startswith(f"propledger: error: {f}") and "internal error" not in err
+    assert _state(led) == before

@@ -279,3 +279,23 @@ def test_junk_is_a_clear_error_never_an_internal_one(led, tmp_path, name, conten
     code, _, err = cli("--ledger", led, "import", str(f))
     assert code == 2 and err.startswith(f"propledger: error: {f}") and "internal error" not in err
     assert _state(led) == before
+
+
+def test_a_ledger_made_before_the_import_section_takes_it_from_craft(tmp_path):
+    old = tmp_path / "old.yaml"
+    old.write_text(CRAFT.split("import:")[0])
+    path = str(tmp_path / "old.ledger.json")
+    assert cli("--ledger", path, "init", "--craft", str(old))[0] == 0
+    msg = write(tmp_path, "plan.ocm", ocm("P", "PLANNED", PLAN))
+    code, _, err = cli("--ledger", path, "import", msg)
+    assert code == 2 and "unknown device 'THR-A' (devices in the craft file's import.devices: none" in err
+    new = write(tmp_path, "new.yaml", CRAFT)
+    assert cli("--ledger", path, "import", msg, "--craft", new)[0] == 0
+    assert [r["kind"] for r in log(path)] == ["plan"]
+
+
+def test_a_bad_import_section_is_refused_when_the_ledger_is_made(tmp_path):
+    craft = write(tmp_path, "c.yaml", CRAFT.replace("THR-A: lae", "THR-A: main"))
+    code, _, err = cli("--ledger", str(tmp_path / "x.json"), "init", "--craft", craft)
+    assert code == 2 and "import.devices.THR-A: unknown engine 'main' (engines: lae, rcs)" in err
+    assert not os.path.exists(tmp_path / "x.json")

@@ -15,7 +15,8 @@ from ..errors import LedgerError
 
 COMMAND_MODULES = ("ledger.cli.entries", "ledger.cli.reading", "ledger.cli.approvals", "ledger.cli.gauging",
                    "ledger.cli.demo", "ledger.cli.handover", "ledger.cli.integrity",
-                   "ledger.cli.fleet")
+                   "ledger.cli.fleet",
+                   "ledger.cli.importing")
 EXIT_ERROR = 2
 
 

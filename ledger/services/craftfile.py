@@ -274,6 +274,10 @@ def craft_from_document(doc: Any, src: str) -> Craft:
         extra["plan_dv_tolerance"] = _plan_dv_tolerance(src, ops["plan_dv_tolerance"])
     if ops.get("approval") is not None:
         extra["approval"] = _approval_rule(src, ops["approval"])
+    if doc.get("import") is not None:  # device names and firings columns for 'propledger import'
+        from .importconfig import import_config  # noqa: PLC0415
+
+        extra["import"] = import_config(doc["import"], src, sorted(engine_ids))
     return Craft(name=name, dry_mass_kg=dry_mass, extra=extra,
                  tanks=tuple(tanks), engines=tuple(engines), reserves=tuple(reserves), routine=tuple(routine),
                  dry_mass_sigma_kg=head.qty("dry_mass_sigma", "mass", required=False))

@@ -142,6 +142,34 @@ def _sigma(out: dict[str, Any], data: Mapping[str, Any]) -> dict[str, Any]:
     return out
 
 
+SOURCE_KEYS = 24
+
+
+def _source(out: dict[str, Any], data: Mapping[str, Any]) -> dict[str, Any]:
+    """Where an imported entry came from (file, message, manoeuvre or rows, SHA-256: services.imports),
+    kept as given when it is a small mapping of plain values; absent for an entry typed in."""
+    src = data.get("source")
+    if src is None:
+        return out
+    if not isinstance(src, Mapping) or len(src) > SOURCE_KEYS:
+        raise InputError("source: expected a small mapping (file, message, manoeuvre, sha256)")
+    kept: dict[str, Any] = {}
+    for key, value in src.items():
+        if isinstance(value, (list, tuple)):
+            value = [clean_text(v, f"source.{key}") if isinstance(v, str) else v for v in value]
+            if not all(isinstance(v, (str, int, float)) and not isinstance(v, bool) for v in value):
+                raise InputError(f"source.{key}: expected a list of plain values")
+        elif isinstance(value, str):
+            value = clean_text(value, f"source.{key}")
+        elif isinstance(value, (int, float)) and not isinstance(value, bool):
+            value = _finite(value, f"source.{key}") if isinstance(value, float) else value
+        elif value is not None:
+            raise InputError(f"source.{key}: expected text or a number")
+        kept[clean_text(str(key), "source")] = value
+    out["source"] = kept
+    return out
+
+
 VERDICTS = ("feasible", "marginal", "infeasible")
 
 
@@ -168,15 +196,15 @@ def validate_data(craft: Craft, resolved: Resolved, kind: str, data: Mapping[str
         out.update(_amount_or_pulses(data, AMOUNT_FIELDS, "burn"))
         if data.get("plan") is not None:
             out["plan"] = _plan_ref(resolved, data["plan"], "an executed burn", executing=True)
-        return _sigma(out, data)
+        return _source(_sigma(out, data), data)
     if kind == PLAN:
         out = {"engine": _engine(craft, data.get("engine"))}
         out.update(_one_amount(data, ("dv",), "plan"))
-        return out
+        return _source(out, data)
     if kind == USE:
         out = {"engine": _engine(craft, data.get("engine"))}
         out.update(_amount_or_pulses(data, ("duration", "propellant"), "use"))
-        return _sigma(out, data)
+        return _source(_sigma(out, data), data)
     if kind == MASS:
         if data.get("delta") is None:
             raise InputError("mass: --delta is required (signed, e.g. '-35 kg' for a separation)")

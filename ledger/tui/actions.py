@@ -49,5 +49,12 @@ ACTIONS = (
 )
 
 
+OFF_BAR = (
+    Action("i", "import", "Import", "Import a CCSDS message or firings CSV",
+           "OPM/OCM (KVN or XML) or telemetry firings: the dry run first, then recorded exactly once"),
+)
+"""Actions with a key and a palette command but no place on the key bar (it is full at 80 columns)."""
+
+
 def bindings() -> list[Binding]:
-    return [Binding(a.key, a.name, a.label, key_display=a.key_display) for a in ACTIONS]
+    return [Binding(a.key, a.name, a.label, key_display=a.key_display) for a in ACTIONS + OFF_BAR]

@@ -28,12 +28,14 @@ from .dialogs.decide import DecideForm
 from .dialogs.detail import AlertsDialog, DetailDialog
 from .dialogs.entries import BurnForm, CorrectForm, MassForm, PlanForm, UseForm, WithdrawForm
 from .dialogs.gauge import GaugeForm, RebaselineForm
+from .dialogs.importing import ImportForm
 from .lows import LowBounds, shown_warnings
 from .screens.main import MainScreen
 
 POLL_S = 0.3
 FORMS = {"burn": BurnForm, "plan": PlanForm, "mass": MassForm, "use": UseForm, "withdraw": WithdrawForm,
-         "correct": CorrectForm, "decide": DecideForm, "gauge": GaugeForm, "rebaseline": RebaselineForm}
+         "correct": CorrectForm, "decide": DecideForm, "gauge": GaugeForm, "rebaseline": RebaselineForm,
+         "import": ImportForm}
 NEEDS_PENDING = ("withdraw", "decide")
 
 
@@ -328,7 +330,7 @@ class LedgerConsole(App):
         yield from (c for c in super().get_system_commands(screen) if "screenshot" not in c.title.lower())
         if self.main is None:
             return
-        for a in actions.ACTIONS:
+        for a in actions.ACTIONS + actions.OFF_BAR:
             yield SystemCommand(f"{a.title}  ({a.key_display or a.key})", a.help, getattr(self.main, f"action_{a.name}"))
         yield SystemCommand(f"Open the fleet screen  ({FLEET_KEY})",
                             "every craft of the fleet folder ($PROPLEDGER_FLEET) by attention; Enter opens one",

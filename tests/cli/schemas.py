@@ -181,3 +181,36 @@ FLEET = {
         "craft": {"type": "array", "items": FLEET_ROW}, "caution": STR,
     },
 }
+
+SOURCE = {"type": "object", "required": ["file", "sha256", "format", "key"], "properties": {
+    "file": STR, "sha256": HASH, "format": {"type": "string", "enum": ["opm", "ocm", "firings"]},
+    "message_id": STR, "creation_date": STR, "man_id": STR, "basis": STR, "device": STR, "rows": STR,
+    "row_count": {"type": "integer"}, "pulses": {"type": "integer"}, "delta_mass_kg": NUM, "dv_sigma_m_s": NUM,
+    "time_system": STR, "key": {"type": "array", "items": STR}}}
+
+IMPORT = {
+    "$schema": "https://json-schema.org/draft/2020-12/schema", "type": "object",
+    "required": ["file", "sha256", "format", "dry_run", "already_imported", "entries", "recorded", "corrected",
+                 "unchanged", "warnings", "caution"],
+    "properties": {
+        "file": STR, "sha256": HASH, "format": STR, "dry_run": {"type": "boolean"},
+        "already_imported": {"type": "array", "items": {"type": "integer"}},
+        "entries": {"type": "array", "items": {
+            "type": "object", "required": ["action", "kind", "at", "engine", "id", "what", "source"],
+            "properties": {"action": {"type": "string", "enum": ["record", "correct", "same"]},
+                           "kind": {"type": "string", "enum": ["plan", "burn", "use"]}, "at": ISO, "engine": STR,
+                           "id": {"type": "integer"}, "what": STR, "source": SOURCE, "corrects": {"type": "integer"},
+                           "dv_m_s": NUM, "duration_s": NUM, "propellant_kg": NUM, "sigma": NUM,
+                           "delta_mass_kg": NUM}}},
+        "recorded": {"type": "integer"}, "corrected": {"type": "integer"}, "unchanged": {"type": "integer"},
+        "warnings": {"type": "array", "items": STR}, "caution": STR,
+    },
+}
+
+EXPORT = {
+    "$schema": "https://json-schema.org/draft/2020-12/schema", "type": "object",
+    "required": ["out", "format", "encoding", "executed", "planned", "wet_mass_kg", "dry_mass_kg", "caution"],
+    "properties": {"out": STR, "format": {"const": "ocm"}, "encoding": {"type": "string", "enum": ["kvn", "xml"]},
+                   "executed": {"type": "integer"}, "planned": {"type": "integer"}, "wet_mass_kg": NUM,
+                   "dry_mass_kg": NUM, "caution": STR},
+}

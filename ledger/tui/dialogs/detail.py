@@ -10,6 +10,7 @@ from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
+from ...services.imports import source_line
 from ...services.ledger import FIELDS_BY_KIND
 from ...services.views import CAUTION
 from .. import fmt
@@ -35,10 +36,13 @@ def detail_text(d: dict[str, Any]) -> Text:
     line("logged by", d.get("by"))
     line("from host", d.get("host"))
     line("program", d.get("program"))
+    line("imported from", source_line((d.get("data") or {}).get("source")))
     special = data_lines(d["kind"], d.get("data", {}), d.get("approval_now"))
     for label, value, style in special or ():
         line(label, value, style)
     for k, v in ({} if special is not None else d.get("data", {})).items():
+        if k == "source":  # shown above as one 'imported from' line
+            continue
         if k == "changes":
             for ck, cv in v.items():
                 line(f"  sets {ck}", f"{cv} {UNITS.get(ck, '')}".strip())

@@ -271,6 +271,9 @@ class MainScreen(Screen):
     def action_check(self) -> None:
         self.app.open_check()
 
+    def action_import(self) -> None:
+        self.app.open_form("import")
+
     def action_trend(self) -> None:
         self.app.open_trend()
 

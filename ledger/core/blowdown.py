@@ -38,7 +38,7 @@ R_GAS = 8.314462618
 IDEAL_MOLAR_MASS = {"helium": 4.002602e-3, "nitrogen": 28.0134e-3, "argon": 39.948e-3,
                     "krypton": 83.798e-3, "xenon": 131.293e-3}
 """kg/mol, IUPAC standard atomic weights (from memory); only for the ideal-gas fallback."""
-STEP_SHARE = 0.002
+STEP_SHARE = 0.01
 """Largest share of the fed tanks' load drawn in one Runge-Kutta step (1e-6 against solve_ivp, tests)."""
 MAX_STEPS = 1024
 MAX_PASSES = 80
@@ -76,6 +76,25 @@ class TankModel:
         lo = z[j, i] + wr * (z[j, i + 1] - z[j, i])
         hi = z[j + 1, i] + wr * (z[j + 1, i + 1] - z[j + 1, i])
         return lo + wt * (hi - lo)
+
+    def rows(self, temperature_k) -> np.ndarray:
+        """Z against density at fixed temperatures (K,) -> (K, densities): an isothermal firing's curve,
+        interpolated in temperature once so each step only interpolates in density."""
+        g, z = self.table, self.z
+        ft = np.clip((np.asarray(temperature_k, dtype=float) - g.temperature0_k) / g.temperature_step_k,
+                     0.0, z.shape[0] - 1.000001)
+        j = ft.astype(np.intp)
+        return z[j] + (ft - j)[:, None] * (z[j + 1] - z[j])
+
+    def compressibility_at(self, rho: np.ndarray, rows: np.ndarray) -> np.ndarray:
+        g = self.table
+        fr = (rho - g.density0) / g.density_step
+        np.clip(fr, 0.0, rows.shape[1] - 1.000001, out=fr)
+        i = fr.astype(np.intp)
+        flat = rows.ravel()
+        i += np.arange(0, rows.size, rows.shape[1])
+        lo = flat[i]
+        return lo + (fr - (i % rows.shape[1])) * (flat[i + 1] - lo)
 
     def ullage(self, remaining, rho_l) -> np.ndarray:
         return np.maximum(self.volume - np.asarray(remaining, dtype=float) / rho_l, 1e-9 * self.volume)
@@ -146,7 +165,11 @@ class Model:
         self.cos = np.array([math.cos(math.radians(e.cant_deg)) for e in craft.engines])
 
     def fed(self, e: int) -> list[int]:
-        return [int(t) for t in np.flatnonzero(self.frac[e] > 0)]
+        return self._fed[e]
+
+    @cached_property
+    def _fed(self) -> list[list[int]]:
+        return [[int(t) for t in np.flatnonzero(row > 0)] for row in self.frac]
 
     def pressurised(self, e: int) -> bool:
         """Every tank the engine draws from is a blowdown tank (its feed pressure is known)."""
@@ -171,11 +194,17 @@ class Model:
         return out
 
     def feed_pressure(self, e: int, r0: np.ndarray, x: np.ndarray, temps: np.ndarray, rho_l: np.ndarray,
-                      p_vap: np.ndarray) -> np.ndarray:
-        """Feed pressure of engine ``e`` after drawing x kg from states r0 (K, tanks) at temps (K, tanks)."""
+                      p_vap: np.ndarray, rows: dict | None = None) -> np.ndarray:
+        """Feed pressure of engine ``e`` after drawing x kg from states r0 (K, tanks) at temps (K, tanks);
+        ``rows`` (tank -> TankModel.rows at these temperatures) speeds up isothermal tanks."""
         p = 0.0
         for t in self.fed(e):
             m, f = self.tanks[t], self.frac[e, t]
+            if rows is not None and t in rows:
+                vu = m.ullage(r0[:, t] - f * x, rho_l[:, t])
+                rho = m.gas_kg / vu
+                p = p + f * (m.compressibility_at(rho, rows[t]) * rho * m.rm * temps[:, t] + p_vap[:, t])
+                continue
             start = m.ullage(r0[:, t], rho_l[:, t]) if m.expansion != 1.0 else None
             p = p + f * m.pressure(r0[:, t] - f * x, temps[:, t], rho_l[:, t], p_vap[:, t], start)
         return p
@@ -206,18 +235,21 @@ def step_counts(model: Model, e: int, draw_estimate: np.ndarray) -> np.ndarray:
     return np.minimum(n, MAX_STEPS).astype(np.intp)
 
 
-def rk4(rate: Callable[[np.ndarray, np.ndarray], np.ndarray], span: np.ndarray, steps: np.ndarray) -> np.ndarray:
-    """x(span) of dx/dτ = rate(x, entries) from x = 0, per entry; entries with equal step counts together."""
+def rk4(bind: Callable[[np.ndarray], Callable[[np.ndarray], np.ndarray]], span: np.ndarray,
+        steps: np.ndarray) -> np.ndarray:
+    """x(span) of dx/dτ = rate(x) from x = 0, per entry; entries with equal step counts together
+    (``bind(entries)`` gives the rate of those entries, their inputs sliced once)."""
     x = np.zeros(len(span))
     for n in np.unique(steps).tolist():
         idx = np.flatnonzero(steps == n)
         h = span[idx] / n
         xi = np.zeros(len(idx))
+        rate = bind(idx)
         for _ in range(n):
-            k1 = rate(xi, idx)
-            k2 = rate(xi + 0.5 * h * k1, idx)
-            k3 = rate(xi + 0.5 * h * k2, idx)
-            k4 = rate(xi + h * k3, idx)
+            k1 = rate(xi)
+            k2 = rate(xi + 0.5 * h * k1)
+            k3 = rate(xi + 0.5 * h * k2)
+            k4 = rate(xi + h * k3)
             xi = xi + h / 6.0 * (k1 + 2.0 * k2 + 2.0 * k3 + k4)
         x[idx] = xi
     return x
@@ -230,6 +262,11 @@ def _state(model: Model, r0, temps):
     return r0, temps, rho_l, p_vap
 
 
+def _rows(model: Model, e: int, temps: np.ndarray) -> dict:
+    """Z rows at each entry's temperature for the engine's isothermal tanks."""
+    return {t: model.tanks[t].rows(temps[:, t]) for t in model.fed(e) if model.tanks[t].expansion == 1.0}
+
+
 def timed_draw(model: Model, e: int, r0, temps, on_time, estimate=None) -> np.ndarray:
     """Propellant (kg) engine ``e`` draws firing ``on_time`` seconds from tank states r0 (K, tanks) at
     temperatures temps (K, tanks), the mass flow following the falling feed pressure. Pulse-mode firings
@@ -237,12 +274,15 @@ def timed_draw(model: Model, e: int, r0, temps, on_time, estimate=None) -> np.nd
     r0, temps, rho_l, p_vap = _state(model, r0, temps)
     on_time = np.broadcast_to(np.asarray(on_time, dtype=float), (len(r0),))
 
-    def rate(x, idx):
-        return model.flow(e, model.feed_pressure(e, r0[idx], x, temps[idx], rho_l[idx], p_vap[idx]))
+    rows = _rows(model, e, temps)
+
+    def bind(idx):
+        a, b, c, d, sub = r0[idx], temps[idx], rho_l[idx], p_vap[idx], {t: r[idx] for t, r in rows.items()}
+        return lambda x: model.flow(e, model.feed_pressure(e, a, x, b, c, d, sub))
 
     if estimate is None:
-        estimate = rate(np.zeros(len(r0)), np.arange(len(r0))) * on_time
-    return rk4(rate, on_time, step_counts(model, e, estimate))
+        estimate = bind(np.arange(len(r0)))(np.zeros(len(r0))) * on_time
+    return rk4(bind, on_time, step_counts(model, e, estimate))
 
 
 def dv_draw(model: Model, e: int, m0, r0, temps, dv, estimate=None) -> np.ndarray:
@@ -252,13 +292,16 @@ def dv_draw(model: Model, e: int, m0, r0, temps, dv, estimate=None) -> np.ndarra
     m0 = np.broadcast_to(np.asarray(m0, dtype=float), (len(r0),))
     dv = np.broadcast_to(np.asarray(dv, dtype=float), (len(r0),))
 
-    def rate(x, idx):
-        ve = model.ve(e, model.feed_pressure(e, r0[idx], x, temps[idx], rho_l[idx], p_vap[idx]))
-        return (m0[idx] - x) / ve
+    rows = _rows(model, e, temps)
+
+    def bind(idx):
+        a, b, c, d, sub = r0[idx], temps[idx], rho_l[idx], p_vap[idx], {t: r[idx] for t, r in rows.items()}
+        m = m0[idx]
+        return lambda x: (m - x) / model.ve(e, model.feed_pressure(e, a, x, b, c, d, sub))
 
     if estimate is None:
-        estimate = -m0 * np.expm1(-dv / rate(np.zeros(len(r0)), np.arange(len(r0))) / m0)
-    return rk4(rate, dv, step_counts(model, e, estimate))
+        estimate = -m0 * np.expm1(-dv / bind(np.arange(len(r0)))(np.zeros(len(r0))) / m0)
+    return rk4(bind, dv, step_counts(model, e, estimate))
 
 
 GL3 = (np.array([-math.sqrt(0.6), 0.0, math.sqrt(0.6)]), np.array([5.0, 8.0, 5.0]) / 9.0)
@@ -353,8 +396,8 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
             for sel, is_dv in ((ti, False), (di, True)):
                 if not sel.size:
                     continue
-                moved = np.any(np.abs(r_before[sel] - last_r[sel]) > 1e-15 * (1.0 + np.abs(r_before[sel])), axis=1)
-                moved |= ~(np.abs(m_before[sel] - last_m[sel]) <= 1e-15 * m_before[sel])
+                moved = np.any(np.abs(r_before[sel] - last_r[sel]) > 1e-14 * (1.0 + np.abs(r_before[sel])), axis=1)
+                moved |= ~(np.abs(m_before[sel] - last_m[sel]) <= 1e-14 * m_before[sel])
                 sel = sel[moved]
                 if not sel.size:
                     continue
@@ -375,6 +418,16 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
     flow_event[timed] = x[timed] / duration[timed]
     p_start, p_end = np.full(n, np.nan), np.full(n, np.nan)
     r_before = np.vstack([craft.loads()[None, :], rep.remaining[:-1]]) if n else np.empty((0, len(craft.tanks)))
+    timed_burn = timed & steps.is_burn
+    if timed_burn.any():  # a burn by duration delivers the falling ve integrated over its draw
+        dv = rep.dv.copy()
+        for e, ti, _ in by_engine:
+            sel = ti[steps.is_burn[ti]]
+            if sel.size:
+                dv[sel] = dv_over_draw(model, e, rep.mass_before[sel], r_before[sel], temps[sel], x[sel])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ve_event[timed_burn] = dv[timed_burn] / np.log(rep.mass_before[timed_burn] / rep.mass_after[timed_burn])
+        rep = replace(rep, dv=dv)
     for e in range(len(craft.engines)):
         sel = np.flatnonzero(engine_ok & (eng == e) & (steps.kind != STEP_MASS) & (steps.kind != STEP_REBASE))
         if not sel.size or not model.pressurised(e):

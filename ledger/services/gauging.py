@@ -88,8 +88,9 @@ def bookkeeping_at(snap: Snapshot, tank_id: str, at: float) -> tuple[float, floa
     k = int(np.searchsorted(ats, at, side="right"))
     t = snap.craft.tank_index(tank_id)
     value = float(snap.replay.remaining[k - 1, t]) if k else float(snap.craft.tanks[t].load_kg)
-    steps = steps_from_events(snap.craft, events)
-    sigma = float(bookkeeping_sigma(snap.craft, events, steps, snap.replay, upto=k)[t])
+    flight = snap.flight_events
+    steps = steps_from_events(snap.flight_craft, flight)
+    sigma = float(bookkeeping_sigma(snap.flight_craft, flight, steps, snap.replay, upto=k)[t])
     return value, sigma, k
 
 

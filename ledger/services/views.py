@@ -79,7 +79,7 @@ def commitments(snap: Snapshot, exclude_plan: int | None = None) -> list[tuple[s
 
 def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
           exclude_plan: int | None = None) -> dict[str, Any]:
-    res = cap.check(snap.craft, snap.state, engine, dv, commitments(snap, exclude_plan) if include_pending else [])
+    res = cap.check(snap.flight_craft, snap.state, engine, dv, commitments(snap, exclude_plan) if include_pending else [])
     return {
         "engine": res.engine, "dv_m_s": res.dv_m_s,
         "verdict": "feasible" if res.feasible else "infeasible",

@@ -67,6 +67,11 @@ def print_reading(r: dict) -> None:
     out.print(f"tank [bold]{esc(r['tank'])}[/] ({esc(r['fluid'])}, {esc(r['method'])}) at {esc(r['at'])}")
     out.print(f"  reading      {r['pressure_pa'] / 1e5:.6g} bar, {r['temperature_k'] - 273.15:.2f} degC "
               f"(+- {r['pressure_sigma_pa'] / 1e5:.3g} bar, {r['temperature_sigma_k']:.3g} K)")
+    if r.get("predicted_pressure_pa") is not None:
+        sig = r.get("pressure_difference_sigma")
+        out.print(f"  pressure     measured {r['measured_pressure_pa'] / 1e5:.4g} bar, predicted "
+                  f"{r['predicted_pressure_pa'] / 1e5:.4g} bar from the bookkeeping"
+                  + (f" ({sig:+.2f} sigma)" if sig is not None else ""))
     out.print(f"  gauged       {r['propellant_kg']:10.3f} kg  +- {r['sigma_kg']:.3f} (1 sigma)")
     out.print(f"  bookkeeping  {r['bookkeeping_kg']:10.3f} kg  +- {r['bookkeeping_sigma_kg']:.3f}")
     out.print(f"  difference   {r['difference_kg']:+10.3f} kg  = {r['difference_sigma']:+.2f} sigma"

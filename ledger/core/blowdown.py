@@ -77,24 +77,27 @@ class TankModel:
         hi = z[j + 1, i] + wr * (z[j + 1, i + 1] - z[j + 1, i])
         return lo + wt * (hi - lo)
 
-    def rows(self, temperature_k) -> np.ndarray:
-        """Z against density at fixed temperatures (K,) -> (K, densities): an isothermal firing's curve,
-        interpolated in temperature once so each step only interpolates in density."""
+    def rows(self, temperature_k) -> tuple[np.ndarray, np.ndarray]:
+        """Z against density at fixed temperatures (K,): an isothermal firing's curve, interpolated in
+        temperature once so each step only interpolates in density. Returned as (flattened rows of the
+        distinct temperatures, each entry's offset into them): a ledger has few distinct temperatures."""
         g, z = self.table, self.z
-        ft = np.clip((np.asarray(temperature_k, dtype=float) - g.temperature0_k) / g.temperature_step_k,
-                     0.0, z.shape[0] - 1.000001)
+        uniq, inverse = np.unique(np.asarray(temperature_k, dtype=float), return_inverse=True)
+        ft = np.clip((uniq - g.temperature0_k) / g.temperature_step_k, 0.0, z.shape[0] - 1.000001)
         j = ft.astype(np.intp)
-        return z[j] + (ft - j)[:, None] * (z[j + 1] - z[j])
+        rows = z[j] + (ft - j)[:, None] * (z[j + 1] - z[j])
+        return rows.ravel(), inverse.ravel() * z.shape[1]
 
-    def compressibility_at(self, rho: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    def compressibility_at(self, rho: np.ndarray, rows: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
         g = self.table
+        flat, offset = rows
         fr = (rho - g.density0) / g.density_step
-        np.clip(fr, 0.0, rows.shape[1] - 1.000001, out=fr)
+        np.clip(fr, 0.0, self.z.shape[1] - 1.000001, out=fr)
         i = fr.astype(np.intp)
-        flat = rows.ravel()
-        i += np.arange(0, rows.size, rows.shape[1])
+        fr -= i
+        i += offset
         lo = flat[i]
-        return lo + (fr - (i % rows.shape[1])) * (flat[i + 1] - lo)
+        return lo + fr * (flat[i + 1] - lo)
 
     def ullage(self, remaining, rho_l) -> np.ndarray:
         return np.maximum(self.volume - np.asarray(remaining, dtype=float) / rho_l, 1e-9 * self.volume)
@@ -277,7 +280,8 @@ def timed_draw(model: Model, e: int, r0, temps, on_time, estimate=None) -> np.nd
     rows = _rows(model, e, temps)
 
     def bind(idx):
-        a, b, c, d, sub = r0[idx], temps[idx], rho_l[idx], p_vap[idx], {t: r[idx] for t, r in rows.items()}
+        a, b, c, d = r0[idx], temps[idx], rho_l[idx], p_vap[idx]
+        sub = {t: (r[0], r[1][idx]) for t, r in rows.items()}
         return lambda x: model.flow(e, model.feed_pressure(e, a, x, b, c, d, sub))
 
     if estimate is None:
@@ -295,7 +299,8 @@ def dv_draw(model: Model, e: int, m0, r0, temps, dv, estimate=None) -> np.ndarra
     rows = _rows(model, e, temps)
 
     def bind(idx):
-        a, b, c, d, sub = r0[idx], temps[idx], rho_l[idx], p_vap[idx], {t: r[idx] for t, r in rows.items()}
+        a, b, c, d = r0[idx], temps[idx], rho_l[idx], p_vap[idx]
+        sub = {t: (r[0], r[1][idx]) for t, r in rows.items()}
         m = m0[idx]
         return lambda x: (m - x) / model.ve(e, model.feed_pressure(e, a, x, b, c, d, sub))
 
@@ -433,8 +438,9 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
         if not sel.size or not model.pressurised(e):
             continue
         r0, tt, rho_l, p_vap = _state(model, r_before[sel], temps[sel])
-        p_start[sel] = model.feed_pressure(e, r0, np.zeros(len(sel)), tt, rho_l, p_vap)
-        p_end[sel] = model.feed_pressure(e, r0, rep.propellant[sel], tt, rho_l, p_vap)
+        rows = _rows(model, e, tt)  # isothermal tanks; polytropic ones end the firing at their gas temperature
+        p_start[sel] = model.feed_pressure(e, r0, np.zeros(len(sel)), tt, rho_l, p_vap, rows)
+        p_end[sel] = model.feed_pressure(e, r0, rep.propellant[sel], tt, rho_l, p_vap, rows)
     return rep, Flown(p_start, p_end, ve_event, flow_event, dep, temps, passes)
 
 
@@ -461,6 +467,16 @@ def effective_ve(model: Model, mass: float, remaining: np.ndarray, temps: np.nda
     return out
 
 
+def equivalent_craft(craft: Craft, model: Model, ve_now: np.ndarray) -> Craft:
+    """The craft with each table engine at ``ve_now`` and its mass flow at loading (see ``equivalent``)."""
+    engines = list(craft.engines)
+    for e in model.perf:
+        eng = craft.engines[e]
+        isp = float(ve_now[e]) / (G0 * model.cos[e])
+        engines[e] = replace(eng, isp_s=isp, thrust_n=eng.thrust_n / eng.isp_s * isp)
+    return replace(craft, engines=tuple(engines))
+
+
 def equivalent(craft: Craft, model: Model, events: Sequence[Entry], flown: Flown,
                ve_now: np.ndarray) -> tuple[Craft, tuple[Entry, ...]]:
     """A constant-performance craft and history that replay to the same nominal figures.
@@ -470,15 +486,8 @@ def equivalent(craft: Craft, model: Model, events: Sequence[Entry], flown: Flown
     flow over the engine's, a delta-v by the engine's ve over the entry's, its sigma with it). The Monte
     Carlo and the closed-form capability then run unchanged on it: engine errors act as the same relative
     factors, and the feedback of a sample's draws on its later pressures (second order) is left out."""
-    engines = list(craft.engines)
-    flow_eq = craft.mass_flows().copy()
-    for e in model.perf:
-        eng = craft.engines[e]
-        isp = float(ve_now[e]) / (G0 * model.cos[e])
-        thrust = eng.thrust_n / eng.isp_s * isp  # same mass flow as the loading figures' ratio
-        engines[e] = replace(eng, isp_s=isp, thrust_n=thrust)
-        flow_eq[e] = thrust / (isp * G0)
-    craft_eq = replace(craft, engines=tuple(engines))
+    craft_eq = equivalent_craft(craft, model, ve_now)
+    flow_eq = craft_eq.mass_flows()
     out = list(events)
     index = {e.id: i for i, e in enumerate(craft.engines)}
     for k in np.flatnonzero(flown.dependent).tolist():

@@ -8,6 +8,7 @@ when the ledger was created), so a status loads no property library.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any, Mapping, Sequence
 
 import numpy as np
@@ -32,8 +33,19 @@ class View:
     pressure_pa: np.ndarray
     """(tanks,) predicted pressure now (NaN for tanks that are not modelled blowdown tanks)."""
     craft_eq: Craft
-    events_eq: tuple[Entry, ...]
+    events: tuple[Entry, ...]
     warnings: tuple[str, ...] = field(default_factory=tuple)
+
+    @cached_property
+    def events_eq(self) -> tuple[Entry, ...]:
+        """The history rescaled to replay on ``craft_eq`` (built when a sampler or a check asks for it)."""
+        if self.flown is None:
+            return self.events
+        return bd.equivalent(self.model.craft, self.model, self.events, self.flown, self.ve_now)[1]
+
+    @cached_property
+    def ve_now(self) -> np.ndarray:
+        return np.array([e.ve for e in self.craft_eq.engines])
 
 
 def readings(craft: Craft, resolved: Resolved) -> list[tuple[int, float, float]]:
@@ -67,11 +79,11 @@ def flight(craft: Craft, resolved: Resolved, rep: Replay | None, replay_fn) -> t
         rep = replay_fn(craft, events)
     now = bd.event_temperatures(craft, np.array([np.inf]), found)[0]
     pressure = model.tank_pressures(rep.remaining_kg[None, :], now[None, :])[0]
-    craft_eq, events_eq = craft, tuple(events)
+    craft_eq = craft
     if flown is not None:
         ve_now = bd.effective_ve(model, rep.mass_kg, rep.remaining_kg, now)
-        craft_eq, events_eq = bd.equivalent(craft, model, events, flown, ve_now)
-    view = View(model, flown, now, pressure, craft_eq, events_eq)
+        craft_eq = bd.equivalent_craft(craft, model, ve_now)
+    view = View(model, flown, now, pressure, craft_eq, tuple(events))
     return rep, _with_warnings(view, craft, events)
 
 
@@ -89,6 +101,8 @@ def _with_warnings(view: View, craft: Craft, events: Sequence[Entry]) -> View:
         lo_p = np.fmin(fl.pressure_start, fl.pressure_end)
         hi_p = np.fmax(fl.pressure_start, fl.pressure_end)
         index = {e.id: i for i, e in enumerate(craft.engines)}
+        engine_of = np.fromiter((index.get(ev.data.get("engine"), -1) for ev in events), dtype=np.intp,
+                                count=len(events))
         for e, eng in enumerate(craft.engines):
             if not view.model.pressurised(e):
                 continue
@@ -96,9 +110,13 @@ def _with_warnings(view: View, craft: Craft, events: Sequence[Entry]) -> View:
             qual = eng.qualified_pressure_pa
             if table is None and qual is None:
                 continue
-            mine = np.flatnonzero(np.fromiter((index.get(ev.data.get("engine"), -1) == e for ev in events),
-                                              dtype=bool, count=len(events)) & ~np.isnan(lo_p))
-            for k in mine.tolist():
+            with np.errstate(invalid="ignore"):
+                off = np.zeros(len(events), dtype=bool)
+                if table is not None:
+                    off |= (lo_p < table.pressure_pa[0]) | (hi_p > table.pressure_pa[-1])
+                if qual is not None:
+                    off |= (lo_p < qual[0]) | (hi_p > qual[1])
+            for k in np.flatnonzero((engine_of == e) & off).tolist():
                 ev = events[k]
                 span = (_bar(lo_p[k]) if abs(hi_p[k] - lo_p[k]) < 0.005 * BAR
                         else f"{_bar(lo_p[k])} to {_bar(hi_p[k])}")
@@ -108,7 +126,7 @@ def _with_warnings(view: View, craft: Craft, events: Sequence[Entry]) -> View:
                 if qual is not None and (lo_p[k] < qual[0] or hi_p[k] > qual[1]):
                     out.append(f"entry #{ev.seq} fires engine {eng.id} at {span}, outside its qualified inlet pressure"
                                f" {_bar(qual[0])} to {_bar(qual[1])}")
-    return View(view.model, view.flown, view.temperature_k, view.pressure_pa, view.craft_eq, view.events_eq,
+    return View(view.model, view.flown, view.temperature_k, view.pressure_pa, view.craft_eq, view.events,
                 tuple(out))
 
 

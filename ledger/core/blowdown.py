@@ -324,7 +324,8 @@ def dv_over_draw(model: Model, e: int, mass, r0, temps, draw, panels: int = 64) 
     k = len(r0)
     x = draw[:, None] * u[None, :]                       # (K, P*3)
     rep = lambda a: np.repeat(a, len(u), axis=0)  # noqa: E731
-    p = model.feed_pressure(e, rep(r0), x.ravel(), rep(temps), rep(rho_l), rep(p_vap)).reshape(k, len(u))
+    rows = {t: (flat, rep(offset)) for t, (flat, offset) in _rows(model, e, temps).items()}
+    p = model.feed_pressure(e, rep(r0), x.ravel(), rep(temps), rep(rho_l), rep(p_vap), rows).reshape(k, len(u))
     with np.errstate(divide="ignore", invalid="ignore"):
         integrand = model.ve(e, p) / (mass[:, None] - x)
         return np.where(draw > 0, draw * (integrand @ w), 0.0)
@@ -341,6 +342,7 @@ class Flown:
     ve_event: np.ndarray         # (n,) effective exhaust velocity each burn's delta-v is counted at
     flow_event: np.ndarray       # (n,) effective mass flow of firings by duration (NaN otherwise)
     dependent: np.ndarray        # (n,) bool: the draw came from integrating a performance table
+    engine: np.ndarray           # (n,) engine index of each event (-1 for mass changes and re-baselines)
     temperatures: np.ndarray     # (n, tanks) tank temperature at each event
     passes: int
 
@@ -428,8 +430,11 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
         dv = rep.dv.copy()
         for e, ti, _ in by_engine:
             sel = ti[steps.is_burn[ti]]
-            if sel.size:
-                dv[sel] = dv_over_draw(model, e, rep.mass_before[sel], r_before[sel], temps[sel], x[sel])
+            panels = step_counts(model, e, x[sel]) if sel.size else sel
+            for n_panels in np.unique(panels).tolist():  # one Gauss panel per Runge-Kutta step's share
+                part = sel[panels == n_panels]
+                dv[part] = dv_over_draw(model, e, rep.mass_before[part], r_before[part], temps[part], x[part],
+                                        panels=int(n_panels))
         with np.errstate(divide="ignore", invalid="ignore"):
             ve_event[timed_burn] = dv[timed_burn] / np.log(rep.mass_before[timed_burn] / rep.mass_after[timed_burn])
         rep = replace(rep, dv=dv)
@@ -441,7 +446,7 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
         rows = _rows(model, e, tt)  # isothermal tanks; polytropic ones end the firing at their gas temperature
         p_start[sel] = model.feed_pressure(e, r0, np.zeros(len(sel)), tt, rho_l, p_vap, rows)
         p_end[sel] = model.feed_pressure(e, r0, rep.propellant[sel], tt, rho_l, p_vap, rows)
-    return rep, Flown(p_start, p_end, ve_event, flow_event, dep, temps, passes)
+    return rep, Flown(p_start, p_end, ve_event, flow_event, dep, eng, temps, passes)
 
 
 # --- capability and the equivalent constant-performance ledger ---------------------------------

@@ -100,9 +100,7 @@ def _with_warnings(view: View, craft: Craft, events: Sequence[Entry]) -> View:
     if fl is not None and len(events):
         lo_p = np.fmin(fl.pressure_start, fl.pressure_end)
         hi_p = np.fmax(fl.pressure_start, fl.pressure_end)
-        index = {e.id: i for i, e in enumerate(craft.engines)}
-        engine_of = np.fromiter((index.get(ev.data.get("engine"), -1) for ev in events), dtype=np.intp,
-                                count=len(events))
+        engine_of = fl.engine
         for e, eng in enumerate(craft.engines):
             if not view.model.pressurised(e):
                 continue

@@ -178,3 +178,18 @@ def test_temperature_from_latest_reading_else_loading():
     c = craft()
     temps = bd.event_temperatures(c, [0.0, 10.0, 20.0], [(0, 5.0, 300.0), (0, 15.0, 305.0)])
     assert temps[:, 0].tolist() == [293.15, 300.0, 305.0]
+
+
+def test_a_burn_by_duration_delivers_the_integrated_ve():
+    # dv = ∫ ve(p(x))/(m0 - x) dx over the draw, the integral taken by scipy's quad on the same curve.
+    from scipy.integrate import quad
+    c = craft()
+    m = bd.Model(c)
+    ev = [Entry(1, "burn", 0.0, 0.0, "x", "", {"engine": "mono", "duration": 30000.0})]
+    temps = bd.event_temperatures(c, [0.0], [])
+    rep, flown = bd.replay_blowdown(c, m, ev, temps)
+    r0, rho_l, pv = np.array([[57.0]]), *m.liquid(temps)
+    ve = lambda x: float(m.ve(0, m.feed_pressure(0, r0, np.array([x]), temps, rho_l, pv))[0])  # noqa: E731
+    x = float(rep.propellant[0])
+    want = quad(lambda y: ve(y) / (c.initial_mass_kg - y), 0.0, x, epsabs=0, epsrel=1e-12)[0]
+    assert rep.dv[0] == pytest.approx(want, rel=1e-6), f"scipy {scipy.__version__} integrate.quad"

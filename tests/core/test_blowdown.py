@@ -3,7 +3,7 @@
 Sources named beside each check: scipy.integrate.solve_ivp (scipy version printed in the assertion
 message), Boyle's law (isothermal ideal gas, p·V constant: any physics textbook, e.g. Halliday, Resnick &
 Walker, Fundamentals of Physics, ch. 19), helium compressibility from CoolProp PropsSI directly
-(CoolProp version in the message; FIELD values: Z 1.0107 at 2.2 MPa/20 degC, 1.146 at 31 MPa).
+(CoolProp version in the message; docs/sources.md §6: Z 1.0107 at 2.2 MPa/20 degC, 1.146 at 31 MPa).
 """
 from dataclasses import replace
 

@@ -42,7 +42,8 @@ STEP_SHARE = 0.01
 """Largest share of the fed tanks' load drawn in one Runge-Kutta step (1e-6 against solve_ivp, tests)."""
 MAX_STEPS = 1024
 MAX_PASSES = 80
-TOL_REL = 1e-13
+TOL_REL = 1e-11
+"""Fixed-point passes stop when no draw moves by more than this share of the largest (kg/kg)."""
 
 
 class TankModel:
@@ -265,19 +266,26 @@ def _state(model: Model, r0, temps):
     return r0, temps, rho_l, p_vap
 
 
+def _prepared(model: Model, e: int, r0, temps, props):
+    """States with their liquid properties and Z rows; ``props`` = (rho_l, p_vap, rows) already computed
+    for these entries (the replay computes them once for the whole history, not once per pass)."""
+    if props is None:
+        r0, temps, rho_l, p_vap = _state(model, r0, temps)
+        return r0, temps, rho_l, p_vap, _rows(model, e, temps)
+    return np.asarray(r0, dtype=float), np.asarray(temps, dtype=float), *props
+
+
 def _rows(model: Model, e: int, temps: np.ndarray) -> dict:
     """Z rows at each entry's temperature for the engine's isothermal tanks."""
     return {t: model.tanks[t].rows(temps[:, t]) for t in model.fed(e) if model.tanks[t].expansion == 1.0}
 
 
-def timed_draw(model: Model, e: int, r0, temps, on_time, estimate=None) -> np.ndarray:
+def timed_draw(model: Model, e: int, r0, temps, on_time, estimate=None, props=None) -> np.ndarray:
     """Propellant (kg) engine ``e`` draws firing ``on_time`` seconds from tank states r0 (K, tanks) at
     temperatures temps (K, tanks), the mass flow following the falling feed pressure. Pulse-mode firings
     call it with their total on-time."""
-    r0, temps, rho_l, p_vap = _state(model, r0, temps)
+    r0, temps, rho_l, p_vap, rows = _prepared(model, e, r0, temps, props)
     on_time = np.broadcast_to(np.asarray(on_time, dtype=float), (len(r0),))
-
-    rows = _rows(model, e, temps)
 
     def bind(idx):
         a, b, c, d = r0[idx], temps[idx], rho_l[idx], p_vap[idx]
@@ -289,14 +297,12 @@ def timed_draw(model: Model, e: int, r0, temps, on_time, estimate=None) -> np.nd
     return rk4(bind, on_time, step_counts(model, e, estimate))
 
 
-def dv_draw(model: Model, e: int, m0, r0, temps, dv, estimate=None) -> np.ndarray:
+def dv_draw(model: Model, e: int, m0, r0, temps, dv, estimate=None, props=None) -> np.ndarray:
     """Propellant (kg) a burn of ``dv`` m/s by engine ``e`` draws from mass m0 and tank states r0: the
     rocket equation with the exhaust velocity following the feed pressure over the draw."""
-    r0, temps, rho_l, p_vap = _state(model, r0, temps)
+    r0, temps, rho_l, p_vap, rows = _prepared(model, e, r0, temps, props)
     m0 = np.broadcast_to(np.asarray(m0, dtype=float), (len(r0),))
     dv = np.broadcast_to(np.asarray(dv, dtype=float), (len(r0),))
-
-    rows = _rows(model, e, temps)
 
     def bind(idx):
         a, b, c, d = r0[idx], temps[idx], rho_l[idx], p_vap[idx]
@@ -394,6 +400,12 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
     passes = 0
     rep = replay_affine(craft, steps, a, b, ve_event)
     by_engine = [(e, np.flatnonzero(timed & (eng == e)), np.flatnonzero(bydv & (eng == e))) for e in model.perf]
+    rho_all, pv_all = model.liquid(temps) if dep.any() else (None, None)
+    rows_all = {e: _rows(model, e, temps) for e in model.perf} if dep.any() else {}
+
+    def props(e, sel):
+        return rho_all[sel], pv_all[sel], {t: (flat, off[sel]) for t, (flat, off) in rows_all[e].items()}
+
     while dep.any() and passes < MAX_PASSES:
         passes += 1
         r_before = np.vstack([craft.loads()[None, :], rep.remaining[:-1]])
@@ -403,16 +415,18 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
             for sel, is_dv in ((ti, False), (di, True)):
                 if not sel.size:
                     continue
-                moved = np.any(np.abs(r_before[sel] - last_r[sel]) > 1e-14 * (1.0 + np.abs(r_before[sel])), axis=1)
-                moved |= ~(np.abs(m_before[sel] - last_m[sel]) <= 1e-14 * m_before[sel])
+                moved = np.any(np.abs(r_before[sel] - last_r[sel]) > 1e-13 * (1.0 + np.abs(r_before[sel])), axis=1)
+                moved |= ~(np.abs(m_before[sel] - last_m[sel]) <= 1e-13 * m_before[sel])
                 sel = sel[moved]
                 if not sel.size:
                     continue
                 if is_dv:
                     est = np.where(x[sel] > 0, x[sel], (1.0 - a[sel]) * m_before[sel])
-                    new_x[sel] = dv_draw(model, e, m_before[sel], r_before[sel], temps[sel], steps.amount[sel], est)
+                    new_x[sel] = dv_draw(model, e, m_before[sel], r_before[sel], temps[sel], steps.amount[sel], est,
+                                         props(e, sel))
                 else:
-                    new_x[sel] = timed_draw(model, e, r_before[sel], temps[sel], duration[sel], x[sel])
+                    new_x[sel] = timed_draw(model, e, r_before[sel], temps[sel], duration[sel], x[sel],
+                                            props(e, sel))
                 last_r[sel], last_m[sel] = r_before[sel], m_before[sel]
         change = np.max(np.abs(new_x - x)[dep])
         x = new_x

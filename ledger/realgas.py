@@ -116,3 +116,33 @@ def molar_mass(gas: str) -> float:
     from CoolProp.CoolProp import PropsSI  # lazy
 
     return float(PropsSI("M", coolprop_name(gas)))
+
+
+def gas_table(tank):
+    """The tank's pressurant mass at loading and its Z(density, T) table (``core.craft.GasTable``).
+
+    Why here: the core interpolates the table with numpy (no CoolProp on a status); the loading mass is
+    m_g = rho_g(P0 - p_vap(T0), T0)·V_u0, as the PVT gauging computes it (``core.gauging``)."""
+    import CoolProp.CoolProp as CP  # lazy
+
+    from ledger.core import blowdown, liquids
+    from ledger.core.craft import GasTable
+
+    pr = tank.pressurant
+    t0 = float(np.clip(pr.temperature_k, *liquids.valid_range_k(tank.fluid)))
+    p_gas0 = pr.pressure_pa - float(liquids.vapour_pressure(tank.fluid, t0))
+    vu0 = blowdown.initial_ullage(tank)
+    if vu0 <= 0:
+        raise ValueError(f"tank {tank.id}: no ullage at loading ({tank.load_kg:g} kg fills the {tank.volume_m3:g} m3)")
+    gas_kg = float(gas_density(pr.gas, p_gas0, pr.temperature_k)) * vu0
+    rho, temps = blowdown.grids(tank, gas_kg)
+    name = coolprop_name(pr.gas)
+    m_mol = molar_mass(pr.gas)
+    state = CP.AbstractState("HEOS", name)  # one state updated in place: far quicker than PropsSI on arrays
+    z = np.empty((len(temps), len(rho)))
+    for j, t in enumerate(temps.tolist()):
+        for i, d in enumerate(rho.tolist()):
+            state.update(CP.DmassT_INPUTS, d, t)
+            z[j, i] = state.p() * m_mol / (d * blowdown.R_GAS * t)
+    return GasTable(canonical_gas(pr.gas), gas_kg, m_mol, float(rho[0]), float(rho[1] - rho[0]),
+                    float(temps[0]), float(temps[1] - temps[0]), tuple(tuple(float(v) for v in row) for row in z))

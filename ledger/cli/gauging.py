@@ -73,6 +73,11 @@ def print_reading(r: dict) -> None:
     out.print(f"  reading      {r['pressure_pa'] / 1e5:.6g} bar, {r['temperature_k'] - 273.15:.2f} degC "
               f"(+- {r['pressure_sigma_pa'] / 1e5:.3g} bar, {r['temperature_sigma_k']:.3g} K"
               + (f"; pressurant +- {offset:.3g} K about the wall" if offset else "") + ")")
+    if r.get("predicted_pressure_pa") is not None:
+        sig = r.get("pressure_difference_sigma")
+        out.print(f"  pressure     measured {r['measured_pressure_pa'] / 1e5:.4g} bar, predicted "
+                  f"{r['predicted_pressure_pa'] / 1e5:.4g} bar from the bookkeeping"
+                  + (f" ({sig:+.2f} sigma)" if sig is not None else ""))
     if r.get("phase") == "two-phase":
         print_two_phase(out, r)
         return

@@ -74,6 +74,11 @@ def print_status(data: dict) -> None:
                       f"{t['residual_kg']:.2f}", f"{t['usable_kg']:.3f}",
                       *((f"{t['usable_low_kg']:.3f}",) if low else ()), f"{pct:.1f}")
     out.print(tanks)
+    pressures = [(tid, t) for tid, t in data["tanks"].items() if t.get("pressure_pa") is not None]
+    if pressures:
+        out.print("Predicted pressure (blowdown): " + "; ".join(
+            f"{esc(tid)} {t['pressure_pa'] / 1e5:.2f} bar at {t['pressure_temperature_k'] - 273.15:.1f} degC"
+            for tid, t in pressures))
     gauged = {tid: t["gauge"] for tid, t in data["tanks"].items() if t.get("gauge")}
     if gauged:
         table = Table(title="Latest gauge reading per tank, against the bookkeeping then", title_justify="left",
@@ -92,6 +97,12 @@ def print_status(data: dict) -> None:
                           f"{g['bookkeeping_kg']:.3f}", f"{g['difference_kg']:+.3f}", f"{g['difference_sigma']:+.2f}",
                           f"[bold red]{verdict}[/]" if g["flagged"] else verdict)
         out.print(table)
+        for tid, g in gauged.items():
+            if g.get("predicted_pressure_pa") is not None:
+                sig = g.get("pressure_difference_sigma")
+                out.print(f"  {esc(tid)} pressure: measured {g['measured_pressure_pa'] / 1e5:.3f} bar, predicted "
+                          f"{g['predicted_pressure_pa'] / 1e5:.3f} bar from the bookkeeping"
+                          + (f", {sig:+.2f} sigma" if sig is not None else ""))
     engines = Table(title="Engines", title_justify="left", box=box.SIMPLE_HEAVY)
     for col in ("engine", "dv available m/s", "dv free m/s") + ((low,) if low else ()) + ("limiting tank",):
         engines.add_column(col, justify="left" if col in ("engine", "limiting tank") else "right")

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from .craft import Craft, Engine, Pressurant, Reserve, Routine, Tank
+from .craft import Craft, Engine, GasTable, Performance, Pressurant, Reserve, Routine, Tank
 
 
 def craft_to_dict(craft: Craft) -> dict[str, Any]:
@@ -16,6 +16,14 @@ def craft_to_dict(craft: Craft) -> dict[str, Any]:
             d["pressurant"] = {"gas": p.gas, "pressure_pa": p.pressure_pa, "temperature_k": p.temperature_k}
         if t.load_sigma_kg is not None:
             d["load_sigma_kg"] = t.load_sigma_kg
+        if t.expansion != 1.0:
+            d["expansion"] = t.expansion
+        if t.gas_table is not None and not t.gas_table.ideal:
+            g = t.gas_table
+            d["gas_table"] = {"gas": g.gas, "gas_kg": g.gas_kg, "molar_mass_kg_mol": g.molar_mass_kg_mol,
+                              "density0": g.density0, "density_step": g.density_step,
+                              "temperature0_k": g.temperature0_k, "temperature_step_k": g.temperature_step_k,
+                              "z": [list(row) for row in g.z]}
         return d
 
     def engine(e: Engine) -> dict[str, Any]:
@@ -31,6 +39,12 @@ def craft_to_dict(craft: Craft) -> dict[str, Any]:
             d["life"] = dict(e.life)
         if e.mixture_ratio_sigma is not None:
             d["mixture_ratio_sigma"] = e.mixture_ratio_sigma
+        if e.performance is not None:
+            pf = e.performance
+            d["performance"] = {"pressure_pa": list(pf.pressure_pa), "thrust_n": list(pf.thrust_n),
+                                "isp_s": list(pf.isp_s)}
+        if e.qualified_pressure_pa is not None:
+            d["qualified_pressure_pa"] = list(e.qualified_pressure_pa)
         return d
 
     out: dict[str, Any] = {
@@ -55,8 +69,14 @@ def craft_from_dict(d: dict[str, Any]) -> Craft:
             id=t["id"], fluid=t["fluid"], load_kg=float(t["load_kg"]), residual_kg=float(t.get("residual_kg", 0.0)),
             volume_m3=t.get("volume_m3"),
             pressurant=Pressurant(p["gas"], float(p["pressure_pa"]), float(p["temperature_k"])) if p else None,
-            load_sigma_kg=t.get("load_sigma_kg"),
+            load_sigma_kg=t.get("load_sigma_kg"), expansion=float(t.get("expansion", 1.0)),
+            gas_table=gas_table(t["gas_table"]) if t.get("gas_table") else None,
         )
+
+    def gas_table(g: dict[str, Any]) -> GasTable:
+        return GasTable(str(g["gas"]), float(g["gas_kg"]), float(g["molar_mass_kg_mol"]), float(g["density0"]),
+                        float(g["density_step"]), float(g["temperature0_k"]), float(g["temperature_step_k"]),
+                        tuple(tuple(float(x) for x in row) for row in g["z"]))
 
     def engine(e: dict[str, Any]) -> Engine:
         return Engine(
@@ -66,7 +86,14 @@ def craft_from_dict(d: dict[str, Any]) -> Craft:
             pulse_isp_factor=float(e.get("pulse_isp_factor", 1.0)),
             life={k: float(v) for k, v in e["life"].items()} if e.get("life") else None,
             mixture_ratio_sigma=e.get("mixture_ratio_sigma"),
+            performance=performance(e["performance"]) if e.get("performance") else None,
+            qualified_pressure_pa=tuple(float(x) for x in e["qualified_pressure_pa"])
+            if e.get("qualified_pressure_pa") else None,
         )
+
+    def performance(pf: dict[str, Any]) -> Performance:
+        return Performance(tuple(float(x) for x in pf["pressure_pa"]), tuple(float(x) for x in pf["thrust_n"]),
+                           tuple(float(x) for x in pf["isp_s"]))
 
     return Craft(
         name=d["name"],

@@ -26,6 +26,35 @@ class Pressurant:
 
 
 @dataclass(frozen=True)
+class GasTable:
+    """A blowdown tank's pressurant: its mass (fixed at loading) and compressibility Z(density, T).
+
+    Tabulated once by a shell with a real-gas library (``ledger.realgas.gas_table``) on uniform grids,
+    so the core interpolates it with numpy and never loads the property library. ``ideal`` marks the
+    fallback Z = 1 used when a stored craft predates the table."""
+
+    gas: str
+    gas_kg: float
+    molar_mass_kg_mol: float
+    density0: float
+    density_step: float
+    temperature0_k: float
+    temperature_step_k: float
+    z: tuple[tuple[float, ...], ...]
+    """Rows by temperature, columns by density."""
+    ideal: bool = False
+
+
+@dataclass(frozen=True)
+class Performance:
+    """Steady-state thrust and Isp against feed pressure, interpolated linearly (end values outside)."""
+
+    pressure_pa: tuple[float, ...]
+    thrust_n: tuple[float, ...]
+    isp_s: tuple[float, ...]
+
+
+@dataclass(frozen=True)
 class Tank:
     id: str
     fluid: str
@@ -34,6 +63,14 @@ class Tank:
     volume_m3: float | None = None
     pressurant: Pressurant | None = None
     load_sigma_kg: float | None = None
+    expansion: float = 1.0
+    """Polytropic exponent of the pressurant during a firing: 1.0 isothermal .. 1.667 adiabatic helium."""
+    gas_table: GasTable | None = None
+
+    @property
+    def blowdown(self) -> bool:
+        """A tank with a volume and a pressurant: its pressure falls as propellant is drawn."""
+        return self.volume_m3 is not None and self.pressurant is not None
 
 
 @dataclass(frozen=True)
@@ -45,6 +82,9 @@ class Engine:
     cant_deg: float = 0.0
     isp_sigma_s: float | None = None
     thrust_sigma_n: float | None = None
+    performance: Performance | None = None
+    """Thrust and Isp against feed pressure; ``isp_s``/``thrust_n`` then hold the values at loading."""
+    qualified_pressure_pa: tuple[float, float] | None = None
     pulse_isp_factor: float = 1.0
     """Pulse-mode Isp as a share of steady state (craft file ``pulse: {isp_factor: 0.75}``); 1 = none given."""
     life: Mapping[str, float] | None = None
@@ -137,6 +177,11 @@ class Craft:
             for tank_id, parts in eng.feeds.items():
                 frac[i, ids.index(tank_id)] = parts / total
         return frac
+
+    @property
+    def has_tables(self) -> bool:
+        """Any engine with performance against feed pressure (the replay is then not affine)."""
+        return any(e.performance is not None for e in self.engines)
 
     @property
     def initial_mass_kg(self) -> float:

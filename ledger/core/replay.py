@@ -169,10 +169,16 @@ def _scan(m: float, rem: np.ndarray, a: np.ndarray, b: np.ndarray, kind: np.ndar
 def replay(craft: Craft, events: Sequence[Entry], steps: Steps | None = None) -> Replay:
     steps = steps if steps is not None else steps_from_events(craft, events)
     ve = craft.ve()
+    a, b = _affine(steps, ve)
+    return replay_affine(craft, steps, a, b, ve[np.maximum(steps.engine, 0)])
+
+
+def replay_affine(craft: Craft, steps: Steps, a: np.ndarray, b: np.ndarray, ve_event: np.ndarray) -> Replay:
+    """The replay given every step's affine (a, b) and the exhaust velocity its delta-v is counted at
+    (``core.blowdown`` calls it with draws it found by integration, one call per fixed-point pass)."""
     m0 = craft.initial_mass_kg
     loads = craft.loads()
     n, n_tanks = len(steps.kind), len(craft.tanks)
-    a, b = _affine(steps, ve)
     fractions = np.vstack([craft.feed_fractions(), np.zeros((1, n_tanks))])
     cuts = np.flatnonzero(steps.kind == STEP_REBASE) if steps.tank is not None else ()
     if len(cuts) == 0:
@@ -196,7 +202,7 @@ def replay(craft: Craft, events: Sequence[Entry], steps: Steps | None = None) ->
         after, prop, drawn, remaining, adjusted = (np.concatenate(x) for x in zip(*parts))
     before = np.concatenate(([m0], after[:-1])) if n else np.empty(0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        dv = np.where(steps.is_burn, ve[np.maximum(steps.engine, 0)] * np.log(before / after), 0.0)
+        dv = np.where(steps.is_burn, ve_event * np.log(before / after), 0.0)
     if steps.isp_factor is not None:  # pulse trains deliver the pulse-mode Isp (pulse_isp_factors)
         dv = dv * steps.isp_factor
     final_mass = float(after[-1]) if n else m0
@@ -236,4 +242,4 @@ def replay_loop(craft: Craft, events: Sequence[Entry]) -> tuple[float, np.ndarra
     return m, remaining
 
 
-__all__ = ["Replay", "Steps", "replay", "replay_loop", "steps_from_events", "mass_scan", "scan_log", "USE"]
+__all__ = ["Replay", "Steps", "replay", "replay_loop", "steps_from_events", "replay_affine", "mass_scan", "scan_log", "USE"]

@@ -115,6 +115,11 @@ def _state(r: Mapping[str, Any]) -> list[Block]:
                  + ((num(t.get("usable_low_kg"), 3),) if low_t else ()) + (num(t["residual_kg"], 2),)
                  for t in s["tanks"])
     out.append(Block("table", headers=headers, rows=rows, align="ll" + "r" * (len(headers) - 2)))
+    blowdown = [t for t in s["tanks"] if t.get("pressure_pa") is not None]
+    if blowdown:
+        out.append(Block("para", "Predicted pressure (blowdown, from the bookkeeping): " + "; ".join(
+            f"{t['id']} {num(t['pressure_pa'] / 1e5, 2)} bar at {num(t['pressure_temperature_k'] - 273.15, 1)} degC"
+            for t in blowdown) + "."))
     low_e = any("dv_free_low_m_s" in e for e in s["engines"])
     headers = ("engine", "dv available m/s", "dv free m/s") + (("dv free low m/s",) if low_e else ()) + ("limiting tank",)
     rows = tuple((e["id"], num(e["dv_available_m_s"]), num(e["dv_free_m_s"]))

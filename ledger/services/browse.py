@@ -176,15 +176,17 @@ def select(ix: LogIndex, kinds: Sequence[str] | None = None, text: str = "") -> 
 def tanks(snap: Snapshot) -> list[dict[str, Any]]:
     """Per tank: load, remaining, residual, usable, and the part of usable the reserves would draw if
     flown now (reserve share; the rest is free), all in kg."""
+    from .views import blowdown_keys  # noqa: PLC0415 - views builds on this module
+
     craft = snap.craft
     usable = snap.usable_kg
-    held = cap.reserve_draw_per_kg(craft) * max(snap.state.mass_kg, 0.0)
+    held = cap.reserve_draw_per_kg(snap.flight_craft) * max(snap.state.mass_kg, 0.0)
     out = []
     for i, t in enumerate(craft.tanks):
         reserve = float(min(max(held[i], 0.0), usable[i]))
         out.append({"id": t.id, "fluid": t.fluid, "load_kg": t.load_kg, "residual_kg": t.residual_kg,
                     "remaining_kg": float(snap.state.remaining_kg[i]), "usable_kg": float(usable[i]),
-                    "reserve_kg": reserve, "free_kg": float(usable[i]) - reserve})
+                    "reserve_kg": reserve, "free_kg": float(usable[i]) - reserve, **blowdown_keys(snap.blowdown, i)})
     return out
 
 

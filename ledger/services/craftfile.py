@@ -7,11 +7,15 @@ are checked the same way when present.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from typing import Any, Mapping
+
+import numpy as np
 
 import yaml
 
-from ..core.craft import Craft, Engine, Pressurant, Reserve, Routine, Tank
+from ..core.craft import Craft, Engine, Performance, Pressurant, Reserve, Routine, Tank
+from ..core.fluids import is_gas_name
 from ..errors import InputError
 from ..units import parse_quantity
 
@@ -209,7 +213,7 @@ def craft_from_document(doc: Any, src: str) -> Craft:
         tank = Tank(id=f.text("id"), fluid=f.text("fluid"), load_kg=f.qty("load", "mass"),
                     residual_kg=f.qty("residual", "mass", 0.0),
                     volume_m3=f.qty("volume", "volume", required=False, positive=True), pressurant=pressurant,
-                    load_sigma_kg=f.qty("load_sigma", "mass", required=False))
+                    load_sigma_kg=f.qty("load_sigma", "mass", required=False), expansion=_expansion(f))
         if tank.residual_kg > tank.load_kg:
             raise InputError(f"{f.at('residual')}: {tank.residual_kg:g} kg exceeds the load of {tank.load_kg:g} kg")
         tanks.append(tank)
@@ -239,11 +243,20 @@ def craft_from_document(doc: Any, src: str) -> Craft:
         cant = f.qty("cant", "angle", 0.0)
         if cant >= 90.0:
             raise InputError(f"{f.at('cant')}: {cant:g} deg leaves no thrust along the burn (expected below 90 deg)")
-        engines.append(Engine(id=f.text("id"), isp_s=f.qty("isp", "time", positive=True),
-                              thrust_n=f.qty("thrust", "force", positive=True), feeds=feeds, cant_deg=cant,
+        performance = _performance(src, f, node.get("performance"), feeds, {t.id: t for t in tanks})
+        qualified = _qualified(src, f, node.get("qualified_pressure"))
+        if performance is None:
+            isp, thrust = f.qty("isp", "time", positive=True), f.qty("thrust", "force", positive=True)
+        else:  # the table at the feed pressure at loading stands for the engine's nominal figures
+            p0 = sum(share * next(t for t in tanks if t.id == tid).pressurant.pressure_pa
+                     for tid, share in feeds.items()) / sum(feeds.values())
+            isp = float(np.interp(p0, performance.pressure_pa, performance.isp_s))
+            thrust = float(np.interp(p0, performance.pressure_pa, performance.thrust_n))
+        engines.append(Engine(id=f.text("id"), isp_s=isp, thrust_n=thrust, feeds=feeds, cant_deg=cant,
                               isp_sigma_s=f.qty("isp_sigma", "time", required=False),
                               thrust_sigma_n=f.qty("thrust_sigma", "force", required=False),
-                              mixture_ratio_sigma=mr_sigma,
+                              mixture_ratio_sigma=mr_sigma, performance=performance,
+                              qualified_pressure_pa=qualified,
                               **_pulse_and_life(src, node, f"engines[{i}]")))
     _unique(src, "engines", [e.id for e in engines])
     engine_ids = {e.id for e in engines}
@@ -279,8 +292,85 @@ def craft_from_document(doc: Any, src: str) -> Craft:
 
         extra["import"] = import_config(doc["import"], src, sorted(engine_ids))
     return Craft(name=name, dry_mass_kg=dry_mass, extra=extra,
-                 tanks=tuple(tanks), engines=tuple(engines), reserves=tuple(reserves), routine=tuple(routine),
-                 dry_mass_sigma_kg=head.qty("dry_mass_sigma", "mass", required=False))
+                 tanks=_with_gas_tables(src, tanks), engines=tuple(engines), reserves=tuple(reserves),
+                 routine=tuple(routine), dry_mass_sigma_kg=head.qty("dry_mass_sigma", "mass", required=False))
+
+
+EXPANSION_RANGE = (1.0, 1.667)
+"""Polytropic exponent of a blowdown tank's pressurant: isothermal up to adiabatic helium (gamma 5/3)."""
+
+
+def _expansion(f: _Fields) -> float:
+    value = f.node.get("expansion")
+    if value is None:
+        return 1.0
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (
+            EXPANSION_RANGE[0] <= float(value) <= EXPANSION_RANGE[1]):
+        raise InputError(f"{f.at('expansion')}: expected a polytropic exponent from {EXPANSION_RANGE[0]} (isothermal)"
+                         f" to {EXPANSION_RANGE[1]} (adiabatic helium), got {shown(value)}")
+    return float(value)
+
+
+def _quantities(f: _Fields, node: Mapping, key: str, dimension: str, n: int | None) -> list[float]:
+    values = node.get(key)
+    where = f"{f.at('performance')}.{key}"
+    if not isinstance(values, list) or len(values) < 2 or (n is not None and len(values) != n):
+        need = f"{n} values (one per pressure)" if n is not None else "at least two values"
+        raise InputError(f"{where}: expected a list of {need}, got {shown(values)}")
+    return [parse_quantity(v, dimension, f"{where}[{i}]", positive=True) for i, v in enumerate(values)]
+
+
+def _performance(src: str, f: _Fields, node: Any, feeds: Mapping[str, float], tanks: Mapping[str, Tank]):
+    """engines[i].performance: {pressure, thrust, isp} lists against feed pressure (strictly increasing)."""
+    if node is None:
+        return None
+    if not isinstance(node, Mapping):
+        raise InputError(f"{f.at('performance')}: expected a mapping with pressure, thrust and isp lists")
+    pressure = _quantities(f, node, "pressure", "pressure", None)
+    if any(b <= a for a, b in zip(pressure, pressure[1:])):
+        raise InputError(f"{f.at('performance')}.pressure: expected strictly increasing pressures")
+    thrust = _quantities(f, node, "thrust", "force", len(pressure))
+    isp = _quantities(f, node, "isp", "time", len(pressure))
+    not_blowdown = [t for t in feeds if not tanks[t].blowdown or _gas_stored(src, tanks[t])]
+    if not_blowdown:
+        raise InputError(f"{f.at('performance')}: tank {not_blowdown[0]} has no `volume` and `pressurant`: a table "
+                         "against feed pressure needs blowdown tanks of liquid propellant")
+    return Performance(tuple(pressure), tuple(thrust), tuple(isp))
+
+
+def _qualified(src: str, f: _Fields, node: Any) -> tuple[float, float] | None:
+    if node is None:
+        return None
+    where = f.at("qualified_pressure")
+    if not isinstance(node, list) or len(node) != 2:
+        raise InputError(f"{where}: expected [lowest, highest] inlet pressure such as ['5.5 bar', '24 bar']")
+    lo, hi = (parse_quantity(v, "pressure", f"{where}[{i}]", positive=True) for i, v in enumerate(node))
+    if hi <= lo:
+        raise InputError(f"{where}: the highest pressure must be above the lowest")
+    return lo, hi
+
+
+def _with_gas_tables(src: str, tanks: list[Tank]) -> tuple[Tank, ...]:
+    """Blowdown tanks of a liquid get their pressurant's real-gas table (CoolProp, loaded only here)."""
+    out = []
+    for t in tanks:
+        if t.blowdown and not _gas_stored(src, t):
+            from .. import realgas  # noqa: PLC0415 - CoolProp only for a craft with blowdown tanks
+
+            try:
+                t = replace(t, gas_table=realgas.gas_table(t))
+            except (ValueError, KeyError) as exc:
+                raise InputError(f"{src}: tank {t.id}: {str(exc).splitlines()[0] if str(exc) else exc!r}") from None
+        out.append(t)
+    return tuple(out)
+
+
+def _gas_stored(src: str, t: Tank) -> bool:
+    """True for a gas-stored tank and for a fluid without a liquid correlation (no blowdown model then)."""
+    try:
+        return is_gas_name(t.fluid)
+    except ValueError:
+        return True
 
 
 def _plan_dv_tolerance(src: str, node: Any) -> dict[str, float]:

@@ -47,6 +47,16 @@ def achieved_dv(snap: Snapshot, payload: Mapping[str, Any], at: float | None = N
         return float(payload["dv"])
     e = snap.craft.engine_index(payload["engine"])
     eng = snap.craft.engines[e]
+    view = snap.blowdown
+    if view is not None and e in view.model.perf:  # performance against the falling feed pressure
+        from ..core import blowdown as bd  # noqa: PLC0415
+
+        r0, temps, m = snap.state.remaining_kg[None, :], view.temperature_k[None, :], snap.state.mass_kg
+        if payload.get("duration") is not None:
+            p = float(bd.timed_draw(view.model, e, r0, temps, float(payload["duration"]))[0])
+        else:
+            p = float(payload.get("propellant") or 0.0)
+        return float(bd.dv_over_draw(view.model, e, m, r0, temps, p)[0]) if 0 < p < m else None
     if payload.get("duration") is not None:
         p = eng.mass_flow * float(payload["duration"])
     elif payload.get("propellant") is not None:

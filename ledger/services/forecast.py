@@ -74,7 +74,7 @@ def forecast(snap: Snapshot, status: Mapping[str, Any] | None = None, *, now: fl
 def _series(snap: Snapshot, engine: str, life: fc.Lifetime, low: fc.Lifetime | None,
             points: int) -> dict[str, list[float]]:
     """Chart lines in POSIX seconds and m/s: dv free after past events, then the straight projections."""
-    craft, events = snap.craft, snap.resolved.events
+    craft, events = snap.flight_craft, snap.flight_events
     e = craft.engine_index(engine)
     hist_t: list[float] = []
     hist_dv: list[float] = []

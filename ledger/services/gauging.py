@@ -113,8 +113,9 @@ def bookkeeping_at(snap: Snapshot, tank_id: str, at: float) -> tuple[float, floa
     k = int(np.searchsorted(ats, at, side="right"))
     t = snap.craft.tank_index(tank_id)
     value = float(snap.replay.remaining[k - 1, t]) if k else float(snap.craft.tanks[t].load_kg)
-    steps = steps_from_events(snap.craft, events)
-    sigma = float(bookkeeping_sigma(snap.craft, events, steps, snap.replay, upto=k)[t])
+    flight = snap.flight_events
+    steps = steps_from_events(snap.flight_craft, flight)
+    sigma = float(bookkeeping_sigma(snap.flight_craft, flight, steps, snap.replay, upto=k)[t])
     return value, sigma, k
 
 
@@ -198,7 +199,18 @@ def gauge_reading(snapshot: Snapshot, tank_id: str, pressure_pa: float, temperat
     """Estimate and comparison for one reading, nothing written. ``at`` (POSIX s) defaults to now;
     the bookkeeping compared with is the replay of every event up to it."""
     at = now() if at is None else float(at)
-    return {**_reading(snapshot, tank_id, pressure_pa, temperature_k, sigmas, at), "at": iso(at)}
+    payload = _reading(snapshot, tank_id, pressure_pa, temperature_k, sigmas, at)
+    return {**payload, **_pressure_check(snapshot, payload, at), "at": iso(at)}
+
+
+def _pressure_check(snap: Snapshot, payload: dict[str, Any], at: float) -> dict[str, Any]:
+    """For a blowdown tank: the pressure predicted from the bookkeeping beside the measured one, in sigma
+    (a second reconciliation beside the mass comparison; shown, not stored)."""
+    if snap.blowdown is None:
+        return {}
+    from .blowdown import predicted_at_reading  # noqa: PLC0415
+
+    return predicted_at_reading(snap.blowdown, snap.replay, snap.resolved.events, snap.craft, payload, at) or {}
 
 
 def record_gauge(ledger: Ledger, tank_id: str, pressure_pa: float, temperature_k: float,
@@ -209,7 +221,8 @@ def record_gauge(ledger: Ledger, tank_id: str, pressure_pa: float, temperature_k
     snap = ledger.snapshot()
     at = now() if at is None else float(at)
     payload = _reading(snap, tank_id, pressure_pa, temperature_k, sigmas, at)
-    out = {**payload, "at": iso(at), "id": None, "dry_run": bool(dry_run), "warnings": []}
+    out = {**payload, **_pressure_check(snap, payload, at), "at": iso(at), "id": None, "dry_run": bool(dry_run),
+           "warnings": []}
     if not dry_run:
         stored, warnings = ledger.record(GAUGE, payload, at=at, by=by, note=note, snap=snap)
         out.update(id=stored["seq"], warnings=warnings)

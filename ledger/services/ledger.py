@@ -46,6 +46,19 @@ class Snapshot:
     warnings: tuple[str, ...] = field(default_factory=tuple)
     head: tuple[int, str] = (0, "")
     """(seq, hash) of the chain's last link in the records this snapshot was built from."""
+    blowdown: Any = None
+    """``services.blowdown.View`` for a craft with blowdown tanks (predicted pressures, table engines)."""
+
+    @property
+    def flight_craft(self) -> Craft:
+        """The craft the closed-form capability and the Monte Carlo fly: with performance tables, the
+        constant-performance equivalent of ``services.blowdown`` (same nominal replay), else the craft."""
+        return self.blowdown.craft_eq if self.blowdown is not None else self.craft
+
+    @property
+    def flight_events(self) -> tuple[Entry, ...]:
+        """The events that replay on ``flight_craft`` to this snapshot's figures."""
+        return self.blowdown.events_eq if self.blowdown is not None else self.resolved.events
 
     @property
     def usable_kg(self) -> np.ndarray:
@@ -95,19 +108,27 @@ def snapshot_from(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[
     craft = craft_from_dict(meta["craft"])
     entries = tuple(entries_from_records(records))
     resolved = resolve(entries)
-    return assemble(path, craft, meta, records, entries, resolved, replay(craft, resolved.events), integrity)
+    rep = None if craft.has_tables else replay(craft, resolved.events)  # integrated in assemble instead
+    return assemble(path, craft, meta, records, entries, resolved, rep, integrity)
 
 
 def assemble(path: str, craft: Craft, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]],
-             entries: tuple[Entry, ...], resolved: Resolved, rep: Replay, integrity: Break | None) -> Snapshot:
+             entries: tuple[Entry, ...], resolved: Resolved, rep: Replay | None, integrity: Break | None) -> Snapshot:
     """The snapshot of a replayed ledger: capability now, warnings and the chain head it was read at
-    (shared by a fresh read and the console's incremental one)."""
+    (shared by a fresh read and the console's incremental one). A craft with performance tables is
+    replayed here against its falling feed pressure (``services.blowdown``)."""
+    from . import blowdown  # noqa: PLC0415
+
+    rep, view = blowdown.flight(craft, resolved, rep, replay)
     state = cap.State(rep.mass_kg, rep.remaining_kg)
-    engines = tuple(cap.capability(craft, state))
+    engines = tuple(cap.capability(view.craft_eq if view is not None else craft, state))
     warnings = _warnings(craft, resolved.events, rep, state, engines, integrity)
+    if view is not None:
+        warnings += list(view.warnings)
     last = records[-1] if records else meta
     head = (int(last.get("seq", len(records))), str(last.get("hash", "")))
-    return Snapshot(path, craft, meta, entries, resolved, rep, state, engines, integrity, tuple(warnings), head)
+    return Snapshot(path, craft, meta, entries, resolved, rep, state, engines, integrity, tuple(warnings), head,
+                    view)
 
 
 def _verified(path: str, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]]) -> Break | None:

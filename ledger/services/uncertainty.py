@@ -66,7 +66,7 @@ def run(snap: Snapshot, samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED
         progress: mc.Progress | None = None) -> mc.Samples:
     from ..core import montecarlo as mc  # noqa: PLC0415 - only when samples are drawn
 
-    return mc.simulate(snap.craft, snap.resolved.events, samples=samples, seed=seed, progress=progress,
+    return mc.simulate(snap.flight_craft, snap.flight_events, samples=samples, seed=seed, progress=progress,
                        workers=WORKERS)
 
 
@@ -102,8 +102,8 @@ def check_from(snap: Snapshot, s: mc.Samples, engine: str, dv: float, confidence
     """The nominal check plus its probability over the samples and the three-way verdict."""
     from ..core import sampled  # noqa: PLC0415 - only once samples exist
 
-    res = cap.check(snap.craft, snap.state, engine, dv, plans)
-    sc = sampled.check_samples(snap.craft, s, engine, dv, plans)
+    res = cap.check(snap.flight_craft, snap.state, engine, dv, plans)
+    sc = sampled.check_samples(snap.flight_craft, s, engine, dv, plans)
     p = sc.probability
     verdict = "infeasible" if not res.feasible else "feasible" if p >= confidence else "marginal"
     return {

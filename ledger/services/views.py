@@ -22,6 +22,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
     reserves = []
     for r in craft.reserves:
         reserves.append({"id": r.id, "engine": r.engine, "dv_m_s": r.dv_m_s})
+    view = snap.blowdown
     out = {
         "craft": craft.name,
         "ledger": snap.path,
@@ -31,7 +32,8 @@ def status(snap: Snapshot) -> dict[str, Any]:
         "dry_mass_kg": craft.dry_mass_kg,
         "tanks": {
             t.id: {"fluid": t.fluid, "load_kg": t.load_kg, "remaining_kg": float(snap.state.remaining_kg[i]),
-                   "residual_kg": t.residual_kg, "usable_kg": float(usable[i]), "gauge": gauges.get(t.id)}
+                   "residual_kg": t.residual_kg, "usable_kg": float(usable[i]), "gauge": gauges.get(t.id),
+                   **blowdown_keys(view, i)}
             for i, t in enumerate(craft.tanks)
         },
         "engines": {
@@ -69,6 +71,14 @@ def mixture_outage(snap: Snapshot) -> list[dict[str, Any]]:
     return rows
 
 
+def blowdown_keys(view, i: int) -> dict[str, Any]:
+    """A blowdown tank's predicted pressure now and the temperature it is predicted at (else nothing)."""
+    if view is None or i not in view.model.tanks:
+        return {}
+    return {"pressure_pa": float(view.pressure_pa[i]), "pressure_temperature_k": float(view.temperature_k[i]),
+            "expansion": view.model.tanks[i].expansion}
+
+
 GAUGE_KEYS = ("propellant_kg", "sigma_kg", "bookkeeping_kg", "difference_kg", "difference_sigma", "flagged")
 TWO_PHASE_KEYS = ("phase", "min_kg", "max_kg", "bookkeeping_in_range")
 """Present only for a reading on the saturation line (a range, no estimate): services.gauging."""
@@ -84,10 +94,18 @@ def latest_gauges(snap: Snapshot) -> dict[str, dict[str, Any]]:
             if tank not in latest or (e.at, e.seq) >= (latest[tank].at, latest[tank].seq):
                 latest[tank] = e
     adopted = {int(e.data["gauge"]): e.seq for e in snap.resolved.events if e.kind == REBASELINE}
-    return {tank: {"id": e.seq, "at": iso(e.at), "method": e.data.get("method"),
-                   **{k: e.data.get(k) for k in GAUGE_KEYS}, "adopted_by": adopted.get(e.seq),
-                   **{k: e.data[k] for k in TWO_PHASE_KEYS if k in e.data}}
-            for tank, e in latest.items()}
+    out = {tank: {"id": e.seq, "at": iso(e.at), "method": e.data.get("method"),
+                  **{k: e.data.get(k) for k in GAUGE_KEYS}, "adopted_by": adopted.get(e.seq),
+                  **{k: e.data[k] for k in TWO_PHASE_KEYS if k in e.data}}
+           for tank, e in latest.items()}
+    if snap.blowdown is not None:
+        from .blowdown import predicted_at_reading  # noqa: PLC0415
+
+        for tank, e in latest.items():
+            pred = predicted_at_reading(snap.blowdown, snap.replay, snap.resolved.events, snap.craft, e.data, e.at)
+            if pred is not None:
+                out[tank].update(pred)
+    return out
 
 
 def plan_row(p) -> dict[str, Any]:
@@ -101,7 +119,7 @@ def commitments(snap: Snapshot, exclude_plan: int | None = None) -> list[tuple[s
 
 def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
           exclude_plan: int | None = None) -> dict[str, Any]:
-    res = cap.check(snap.craft, snap.state, engine, dv, commitments(snap, exclude_plan) if include_pending else [])
+    res = cap.check(snap.flight_craft, snap.state, engine, dv, commitments(snap, exclude_plan) if include_pending else [])
     return {
         "engine": res.engine, "dv_m_s": res.dv_m_s,
         "verdict": "feasible" if res.feasible else "infeasible",

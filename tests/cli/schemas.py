@@ -57,7 +57,10 @@ STATUS = {
         "tanks": {"type": "object", "additionalProperties": {"type": "object", "required": [
             "fluid", "load_kg", "remaining_kg", "residual_kg", "usable_kg", "usable_low_kg"], "properties": {
             "fluid": STR, "load_kg": NUM, "remaining_kg": NUM, "residual_kg": NUM, "usable_kg": NUM,
-            "usable_low_kg": NUM}}},
+            "usable_low_kg": NUM, "pressure_pa": NUM, "pressure_temperature_k": NUM, "expansion": NUM,
+            "gauge": {"oneOf": [{"type": "null"}, {"type": "object", "properties": {
+                "predicted_pressure_pa": NUM, "measured_pressure_pa": NUM, "pressure_difference_pa": NUM,
+                "pressure_sigma_pa": NUM, "pressure_difference_sigma": {"type": ["number", "null"]}}}]}}}},
         "engines": {"type": "object", "additionalProperties": {"type": "object", "required": [
             "dv_available_m_s", "dv_free_m_s", "limiting_tank", "reserves_met", "dv_free_low_m_s"], "properties": {
             "dv_available_m_s": NUM, "dv_free_m_s": NUM, "dv_free_low_m_s": NUM, "dv_available_low_m_s": NUM,

@@ -44,6 +44,10 @@ def gauge_line(g: dict[str, Any], wide: bool) -> Text:
         out.append(" ok", style="green")
     if g.get("adopted_by"):
         out.append(f" · ≡ adopted #{g['adopted_by']}" if wide else f" ≡#{g['adopted_by']}", style="orchid")
+    if wide and g.get("predicted_pressure_pa") is not None:  # blowdown: the pressure check beside the mass one
+        sig = g.get("pressure_difference_sigma")
+        out.append(f" · p {g['measured_pressure_pa'] / 1e5:.2f} vs {g['predicted_pressure_pa'] / 1e5:.2f} bar"
+                   + (f" {sig:+.1f}σ" if sig is not None else ""), style="grey70")
     return out
 
 
@@ -82,6 +86,8 @@ class TankGauges(Widget):
             out.append_text(fmt.fit(head, w))
             out.append("\n")
             tail = f" {t['remaining_kg']:,.1f}/{t['load_kg']:,.0f}"
+            if t.get("pressure_pa") is not None:  # a blowdown tank: its predicted pressure now
+                tail += f" {t['pressure_pa'] / 1e5:.1f} bar"
             out.append_text(fmt.gauge(t, w - len(tail)))
             out.append(tail, style="grey70")
             out.append("\n")

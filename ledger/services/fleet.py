@@ -184,8 +184,16 @@ def _one_line(exc: BaseException) -> str:
 
 def row_for_path(path: str) -> dict[str, Any]:
     """The row of the ledger file at ``path``; any failure to open it is an unreadable row, never a crash."""
+    from ..store.ledgerfile import forget  # noqa: PLC0415
     from .ledger import Ledger  # noqa: PLC0415
 
+    try:
+        return _row_for_path(path, Ledger)
+    finally:
+        forget(path)  # one parsed ledger in memory at a time, however many the fleet holds
+
+
+def _row_for_path(path: str, Ledger) -> dict[str, Any]:
     try:
         row = summarize(Ledger(path))
         row["ledger"] = path  # the name the source lists it under (status gives the resolved path)

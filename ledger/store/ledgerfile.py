@@ -46,6 +46,14 @@ def lock_for(path: str):
         return _LOCKS[key]
 
 
+def forget(path: str) -> None:
+    """Drop this process's cached parse of the ledger at ``path``: a reader of many ledgers (the fleet)
+    keeps one parsed file in memory at a time instead of every one it has read."""
+    p = real(path)
+    durable._CACHE.pop(p, None)
+    _LAID_OUT.pop(p, None)
+
+
 def utc_stamp() -> str:
     return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
 

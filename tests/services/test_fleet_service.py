@@ -14,12 +14,14 @@ import shutil
 import orjson
 import pytest
 
-from ledger.services import fleet, fleetcache, scenario
+from ledger.services import fleet, fleetcache, gauging, scenario
 from ledger.services.ledger import Ledger, create
+from ledger.services.timefmt import parse_time
 from ledger.store import durable
 from tests.cli.conftest import run
 from tests.helpers import biprop
 
+GAUGED = parse_time("2026-12-01T00:00:00Z")
 G0 = 9.80665  # standard gravity, m/s^2 (CGPM 1901; docs/sources.md §2)
 
 
@@ -38,6 +40,8 @@ def folder(tmp_path_factory):
     for name in ("geo-comsat", "leo-imager", "lunar-orbiter"):
         scenario.build(found[name], str(d / f"{name}.json"))
     create(str(d / "fresh.json"), biprop(), by="test")
+    # a nitrogen tank reading at 15 MPa, 20 degC (a plausible cold-gas pressure; CoolProp densities)
+    gauging.record_gauge(Ledger(str(d / "leo-imager.json")), "gn2", 15e6, 293.15, at=GAUGED, by="test")
     shutil.copyfile(d / "leo-imager.json", d / "tampered.json")
     _tamper(str(d / "tampered.json"))
     (d / "notes.json").write_text("{not a ledger")
@@ -85,6 +89,14 @@ def test_states_say_what_is_wrong(rows):
     assert bad["state"] == "unreadable" and "not a readable ledger file" in bad["error"]
     shown = fleet.view(rows.values())
     assert {shown[0]["state"], shown[1]["state"]} == {"broken", "unreadable"}  # attention order: these first
+
+
+def test_days_since_the_last_gauge_reading(rows):
+    row = rows["leo-imager.json"]
+    assert row["last_gauge_at"] == "2026-12-01T00:00:00Z" and rows["geo-comsat.json"]["last_gauge_at"] is None
+    shown = {r["ledger"]: r for r in fleet.view(rows.values(), now=GAUGED + 2.5 * 86400.0)}
+    assert shown[row["ledger"]]["days_since_gauge"] == pytest.approx(2.5)
+    assert shown[rows["geo-comsat.json"]["ledger"]]["days_since_gauge"] is None
 
 
 def test_fresh_craft_dv_follows_the_rocket_equation(rows):

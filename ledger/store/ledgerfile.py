@@ -307,6 +307,7 @@ class LedgerFile:
         from filelock import Timeout  # noqa: PLC0415
 
         lock = lock_for(self.path)
+        stray = not os.path.lexists(lock.lock_file)  # a lock file this call makes for a ledger that may not exist
         try:
             lock.acquire(timeout=self.lock_timeout)
         except Timeout:
@@ -318,6 +319,12 @@ class LedgerFile:
             yield
         finally:
             lock.release()
+            if stray and not lock.is_locked and not os.path.lexists(self.path):
+                # a command on a path with no ledger changes nothing on disk, not even a lock file
+                try:
+                    os.unlink(lock.lock_file)
+                except OSError:
+                    pass
 
     # --- the one write path ------------------------------------------------------------------
     def append(self, record: Mapping[str, Any]) -> dict[str, Any]:

@@ -5,6 +5,7 @@ and the durability of writes is tested in test_kill9 and test_disk_full."""
 from __future__ import annotations
 
 import argparse
+import contextlib
 import math
 import os
 import shutil
@@ -144,10 +145,12 @@ def test_every_option_of_every_command(template, argv):
         work = os.path.join(folder, "w")
         shutil.copytree(template, work, symlinks=True)
         before = folder_state(work)
-        code, out, err = run("--ledger", os.path.join(work, "ops.ledger.json"), *argv)
+        with contextlib.chdir(folder):  # a relative path in argv (a --ledger after the command) lands here
+            code, out, err = run("--ledger", os.path.join(work, "ops.ledger.json"), *argv)
         _sane(code, out, err)
-        if code == 2:
+        if code == 2:  # nothing written: not in the ledger's folder, not beside the working folder (no lock file)
             assert folder_state(work) == before, argv
+            assert os.listdir(folder) == ["w"], (argv, os.listdir(folder))
     finally:
         shutil.rmtree(folder, ignore_errors=True)
 

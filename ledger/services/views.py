@@ -131,10 +131,6 @@ def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
     }
 
 
-KIND_LABEL = {BURN: "BURN", PLAN: "PLAN", MASS: "MASS", USE: "USE", WITHDRAW: "WDRAW", CORRECT: "CORR",
-              HANDOVER: "HANDOVER", GAUGE: "GAUGE", REBASELINE: "REBASE", APPROVE: "APPR", REJECT: "REJ"}
-
-
 def _amount(data) -> str:
     if data.get("phase") == "two-phase" and data.get("min_kg") is not None:  # a gauge reading with no estimate
         return f"{data.get('tank')} two-phase {data['min_kg']:.3f}..{data.get('max_kg', 0.0):.3f} kg"

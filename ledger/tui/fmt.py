@@ -17,8 +17,8 @@ COLOUR = {
 """The safety caution has its own style (plain text, italic, on the boost background; console.tcss)."""
 KIND_TAG = {
     "burn": ("▲", "BURN"), "plan": ("◇", "PLAN"), "mass": ("±", "MASS"),
-    "use": ("•", "USE"), "withdraw": ("✕", "WDRW"), "correct": ("✎", "CORR"),
-    "handover": ("⇄", "HANDOVER"), "gauge": ("◉", "GAUGE"), "rebaseline": ("≡", "REBASE"),
+    "use": ("•", "USE"), "withdraw": ("✕", "WITHDRAW"), "correct": ("✎", "CORRECT"),
+    "handover": ("⇄", "HANDOVER"), "gauge": ("◉", "GAUGE"), "rebaseline": ("≡", "REBASELINE"),
     "approve": ("✓", "APPROVE"), "reject": ("⊘", "REJECT"),
 }
 KIND_NAMES = {"burn": "executed burns", "plan": "plans", "mass": "mass changes", "use": "other uses",

@@ -37,7 +37,7 @@ def test_grid_and_detail_show_the_later_kinds(every_kind):
     expect = {16: ("APPROVE", ["check then", "probability", "plan's state now"]),
               17: ("REJECT", ["check then", "not needed"]),
               18: ("GAUGE", ["bar", "degC", "gauged", "bookkeeping then", "difference", "within 3σ", "would adopt"]),
-              19: ("REBASE", ["adopts reading", "#18", "adopted value", "PVT agrees"]),
+              19: ("REBASELINE", ["adopts reading", "#18", "adopted value", "PVT agrees"]),
               20: ("HANDOVER", ["from", "A. Day", "B. Night", "window start"])}
 
     async def go():

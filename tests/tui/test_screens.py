@@ -12,7 +12,7 @@ from ledger.tui.app import make_app
 from tui_support import lows_done, ready, run, type_text, until
 
 LABELS = ["Tanks", "Engines", "Watch", "Ledger", "free", "reserve", "residual", "dv free", "chain intact",
-          "PLAN", "BURN", "MASS", "USE", "WDRW", "CORR", "#13", "8.0", "m/s", "Decision support only",
+          "PLAN", "BURN", "MASS", "USE", "WITHDRAW", "CORRECT", "#13", "8.0", "m/s", "Decision support only",
           "flight-dynamics system", "low", "runs out", "undecided"]
 KEYS = [(a.key_display or a.key, a.label, a.short) for a in actions.ACTIONS]
 
@@ -44,7 +44,7 @@ async def shoot(path: str, size: tuple[int, int], keys=(), until_done=None) -> s
 @pytest.mark.parametrize("size", [(80, 24), (160, 48)])
 def test_main_view_shows_every_label(ledger_path, size):
     text = svg_text(run(shoot(ledger_path, size)))
-    labels = LABELS if size[1] > 24 else [x for x in LABELS if x not in ("MASS", "CORR")]  # older than the page
+    labels = LABELS if size[1] > 24 else [x for x in LABELS if x not in ("MASS", "CORRECT")]  # older than the page
     # a run of text can split a label at a style change: compare without spaces too
     squeezed = text.replace(" ", "")
     missing = [lab for lab in labels if lab not in text and lab.replace(" ", "") not in squeezed]

@@ -29,7 +29,7 @@ def name_to_record(ledger: Any, by: str) -> str:
     """The name a new decision will be recorded under, for the one-person-twice test before writing: ``by``,
     unless the store says otherwise through a ``recorded_name(by)`` method (a store that records the
     authenticated session user whatever ``--by`` says)."""
-    hook = getattr(ledger, "recorded_name", None)
+    hook = getattr(ledger, "recorded_name", None) or getattr(getattr(ledger, "file", None), "recorded_name", None)
     return str(hook(by)) if callable(hook) else str(by)
 
 

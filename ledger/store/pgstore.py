@@ -351,6 +351,12 @@ class PgStore:
         with self._write("nothing was recorded"):
             yield
 
+    def recorded_name(self, by: str | None) -> str:
+        """The name a new entry will carry as ``by``: the session user, whatever ``--by`` says (the
+        two-person rule compares this, so one role cannot approve twice under two typed names)."""
+        self._connection()
+        return str(self.user)
+
     def _names(self, by: str | None, default: str | None = None) -> dict[str, str]:
         """``by`` is the session user; a different name the writer gave is kept as ``on_behalf_of``
         (the operating-system login, the default when no --by is given, is not kept)."""

@@ -263,6 +263,9 @@ class LedgerConsole(App):
             return
         for a in actions.ACTIONS:
             yield SystemCommand(f"{a.title}  ({a.key_display or a.key})", a.help, getattr(self.main, f"action_{a.name}"))
+        # No key of its own (the key bar is full at 80x24): the palette and a click on the engines panel.
+        yield SystemCommand("Show engine detail  (click the engines panel)",
+                            "each engine's on-time, pulses and throughput against its qualified life", self.open_engines)
 
 
 def make_app(path: str, demo: bool = False) -> LedgerConsole:

@@ -61,6 +61,8 @@ def register(sub) -> None:
     p.add_argument("--duration", help="corrected duration, e.g. '94 s'")
     p.add_argument("--propellant", help="corrected propellant, e.g. '2.35 kg'")
     p.add_argument("--delta", help="corrected signed mass change, e.g. '-34.2 kg'")
+    p.add_argument("--pulses", help="corrected pulse count of a pulse train, e.g. 1180")
+    p.add_argument("--on-time", dest="on_time", help="corrected on-time per pulse, e.g. '45 ms'")
     add_sigma(p)
     add_write_options(p)
     p.set_defaults(func=cmd_correct)
@@ -170,6 +172,8 @@ def cmd_correct(args) -> int:
                "dv": qty(args.dv, "speed", "--dv"), "duration": qty(args.duration, "time", "--duration"),
                "propellant": qty(args.propellant, "mass", "--propellant"),
                "delta": qty(args.delta, "mass", "--delta", signed=True)}
+    if args.pulses is not None or args.on_time is not None:
+        changes.update(_pulses(args))
     led = open_ledger(args)
     snap = None
     if args.sigma is not None:

@@ -108,7 +108,12 @@ def apply_correction(entry: Entry, changes: Mapping[str, Any]) -> Entry:
                     data.pop("sigma", None)
                 for other in AMOUNT_FIELDS + PULSE_FIELDS:
                     data.pop(other, None)
+            if key in PULSE_FIELDS:  # a pulse train replaces another amount; its total on-time follows
+                for other in AMOUNT_FIELDS:
+                    data.pop(other, None)
             data[key] = value
+    if any(k in PULSE_FIELDS for k in changes) and data.get("pulses") is not None and data.get("on_time") is not None:
+        data["duration"] = int(data["pulses"]) * float(data["on_time"])
     return entry._replace(at=at, note=note, data=data)
 
 

@@ -64,7 +64,8 @@ def achieved_dv(snap: Snapshot, payload: Mapping[str, Any], at: float | None = N
     else:
         return None
     m = snap.state.mass_kg if at is None else mass_before(snap, at)
-    return eng.ve * math.log(m / (m - p)) if 0 < p < m else None
+    ve = eng.ve * (eng.pulse_isp_factor if payload.get("pulses") is not None else 1.0)  # pulse-mode Isp
+    return ve * math.log(m / (m - p)) if 0 < p < m else None
 
 
 def _approval(snap: Snapshot, seq: int) -> str | None:

@@ -19,11 +19,11 @@ from ..store.seam import Store, create_store, open_store
 from .records import clean_text, entries_from_records, entry_from_record, make_record, validate_data
 from .timefmt import iso, now
 
-CORRECTABLE = ("at", "note", "engine", "dv", "duration", "propellant", "delta", "sigma")
+CORRECTABLE = ("at", "note", "engine", "dv", "duration", "propellant", "delta", "sigma", "pulses", "on_time")
 FIELDS_BY_KIND = {
-    BURN: ("at", "note", "engine", "dv", "duration", "propellant", "sigma"),
+    BURN: ("at", "note", "engine", "dv", "duration", "propellant", "sigma", "pulses", "on_time"),
     PLAN: ("at", "note", "engine", "dv"),
-    USE: ("at", "note", "engine", "duration", "propellant", "sigma"),
+    USE: ("at", "note", "engine", "duration", "propellant", "sigma", "pulses", "on_time"),
     MASS: ("at", "note", "delta", "sigma"),
     WITHDRAW: ("at", "note"),
 }

@@ -98,7 +98,10 @@ def _amount_or_pulses(data: Mapping[str, Any], allowed: tuple[str, ...], what: s
     """One amount, or a pulse train (pulses, on_time) stored with its total on-time as ``duration``."""
     if all(data.get(k) is None for k in PULSE_FIELDS):
         return _one_amount(data, allowed, what)
-    other = next((k for k in allowed if data.get(k) is not None), None)
+    total = data.get("duration")
+    stored = (total is not None and isinstance(data.get("pulses"), int) and isinstance(data.get("on_time"), float)
+              and math.isclose(total, data["pulses"] * data["on_time"], rel_tol=1e-12))  # as stored: re-checked
+    other = next((k for k in allowed if data.get(k) is not None and not (stored and k == "duration")), None)
     if data.get("pulses") is None:
         raise InputError("--on-time: only with --pulses (the on-time of each pulse of a pulse train)")
     if other is not None:

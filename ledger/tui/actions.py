@@ -39,8 +39,6 @@ ACTIONS = (
     Action("h", "handover", "Handover", "Shift handover", "preview the report, export text/md/html, record it"),
     Action("t", "trend", "Trend", "Show the trend", "propellant per tank and dv free over time"),
     Action("o", "detail", "Open", "Open the selected entry", "all fields, who, when logged, what it drew"),
-    Action("e", "engines", "Engines", "Show engine detail",
-           "each engine's on-time, pulses and throughput against its qualified life"),
     Action("a", "alerts", "Alerts", "Show every warning in full", "chain integrity, overdrawn tanks, reserves"),
     Action("slash", "find", "Find", "Find entries", "search id, engine, tank, note, by, reason, time", "/"),
     Action("f", "kinds", "Kinds", "Filter by kind",

@@ -9,7 +9,6 @@ HASH = {"type": "string", "pattern": "^[0-9a-f]{64}$"}
 SI_DATA = {"type": "object", "properties": {**{k: NUM for k in (
     "dv_m_s", "duration_s", "propellant_kg", "delta_kg", "pressure_pa", "temperature_k", "on_time_s")},
     "pulses": {"type": "integer", "minimum": 1}},
-    "dependentRequired": {"pulses": ["on_time_s", "duration_s"]},
     "not": {"anyOf": [{"required": [k]} for k in ("dv", "duration", "propellant", "delta", "on_time")]}}
 
 LOG_ROW = {
@@ -18,7 +17,8 @@ LOG_ROW = {
     "properties": {
         "id": {"type": "integer"}, "kind": STR, "at": ISO, "recorded": ISO, "by": STR, "note": STR,
         "superseded": {"type": "boolean"}, "amount": {"type": ["string", "null"]},
-        "data": {**SI_DATA, "properties": {**SI_DATA["properties"], "changes": {
+        "data": {**SI_DATA, "dependentRequired": {"pulses": ["on_time_s", "duration_s"]},
+                 "properties": {**SI_DATA["properties"], "changes": {
             **SI_DATA, "properties": {**SI_DATA["properties"], "at": ISO}}}},
         "changes": {"type": "object", "properties": {"at": ISO}},
         "hash": HASH, "prev": HASH, "host": STR, "program": STR, "on_behalf_of": STR,

@@ -124,3 +124,16 @@ def test_bad_pulse_or_life_in_the_craft_file_is_one_line(tmp_path, line, words):
     assert proc.returncode == 2 and len(proc.stderr.strip().splitlines()) == 1
     assert words in proc.stderr
     assert not (tmp_path / "x.json").exists()
+
+
+def test_a_pulse_train_can_be_corrected_and_its_note_changed(pulsed):
+    run("--ledger", pulsed, "use", "--engine", "acs", "--pulses", "120", "--on-time", "50 ms",
+        "--at", "2026-03-01T00:00Z", check=True)
+    run("--ledger", pulsed, "correct", "--entry", "1", "--note", "wheel off-loading", "--reason", "typo", check=True)
+    run("--ledger", pulsed, "correct", "--entry", "1", "--pulses", "150", "--reason", "telemetry recount", check=True)
+    rows = json.loads(run("--ledger", pulsed, "log", "--json", check=True).stdout)
+    jsonschema.Draft202012Validator(schemas.LOG).validate(rows)
+    carrier = next(r for r in rows if r.get("changes") == {"pulses": 150})  # the latest correction carries it
+    assert carrier["propellant_kg"] == pytest.approx(150 * 0.05 * 2.0 / (220.0 * constants.g), rel=1e-12)
+    bad = run("--ledger", pulsed, "correct", "--entry", "1", "--pulses", "0", "--reason", "x")
+    assert bad.returncode == 2 and "--pulses: must be at least 1" in bad.stderr

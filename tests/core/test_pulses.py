@@ -92,3 +92,14 @@ def test_a_correction_to_another_amount_drops_the_pulse_fields():
     e = ev(1, "use", engine="rcs", **pulse_train(100, 0.05))
     fixed = apply_correction(e, {"propellant": 0.01})
     assert "pulses" not in fixed.data and "on_time" not in fixed.data and "duration" not in fixed.data
+
+
+def test_codec_keeps_pulse_factor_and_life_and_omits_them_when_absent():
+    from ledger.core.codec import craft_from_dict, craft_to_dict
+
+    c = Craft("c", 10.0, (Tank("t", "hydrazine", 1.0),),
+              (Engine("a", 220.0, 1.0, {"t": 1.0}, pulse_isp_factor=0.7, life={"pulses": 5e4, "throughput_kg": 3.0}),
+               Engine("b", 220.0, 1.0, {"t": 1.0})))
+    d = craft_to_dict(c)
+    assert "pulse_isp_factor" not in d["engines"][1] and "life" not in d["engines"][1]  # older ledgers unchanged
+    assert craft_from_dict(d) == c

@@ -1,5 +1,5 @@
 """Pulse trains in the console (issue 12, point 3): the use and burn forms accept 'N x on-time', and the
-engine detail (key e) shows on-time, pulses and throughput against the qualified life, with the same
+engine detail (a click on the engines panel, or the palette) shows on-time, pulses and throughput against the qualified life, with the same
 80 % warning the status carries. Hand value: 1200 x 50 ms = 60 s of on-time (SI: 1 ms = 1e-3 s, BIPM SI
 Brochure, 9th ed., Table 7 prefixes)."""
 from __future__ import annotations
@@ -62,7 +62,8 @@ def test_engine_detail_shows_totals_against_life(tmp_path):
         app = make_app(path)
         async with app.run_test(size=(120, 44)) as pilot:
             await ready(app, pilot)
-            await pilot.press("e")
+            assert any(c.title.startswith("Show engine detail") for c in app.get_system_commands(app.screen))
+            await pilot.click("#engines")  # the engines panel opens the detail (no key: the bar is full)
             await pilot.pause(0.2)
             assert isinstance(app.screen, EnginesDialog)
             body = str(app.screen.query_one("#engines-detail", Static).render())

@@ -244,10 +244,7 @@ class CorrectForm(EntryForm):
             return (("delta", v) if v is not None else None), msg
         allowed = ("dv",) if target is not None and target.kind == PLAN else (
             ("duration", "propellant") if target is not None and target.kind == USE else ("dv", "duration", "propellant"))
-        parsed, msg = fields.amount(text, allowed, required=False)
-        if parsed is not None and parsed[0] == "pulses":  # not correctable (services.ledger.CORRECTABLE)
-            return None, "a correction takes the total on-time as a duration ('60 s'), not pulses"
-        return parsed, msg
+        return fields.amount(text, allowed, required=False)
 
     def field_changed(self, name: str) -> None:
         if name != "entry":
@@ -275,6 +272,6 @@ class CorrectForm(EntryForm):
                                    "engine": values.get("engine")}
         if values.get("amount"):
             key, amount = values["amount"]
-            changes[key] = amount
+            changes.update(fields.amount_data(key, amount))
         return self.app.write_correction(values["entry"], changes, reason=values["reason"],
                                          by=values.get("by") or None)

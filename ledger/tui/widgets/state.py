@@ -120,7 +120,7 @@ class EngineTable(Widget):
         self.refresh(layout=True)
 
     def on_click(self) -> None:
-        """A click opens the engine detail (key e): totals against qualified life."""
+        """A click opens the engine detail (also in the command palette): totals against qualified life."""
         opener = getattr(self.app, "open_engines", None)
         if opener is not None:
             opener()

@@ -528,3 +528,27 @@ def equivalent(craft: Craft, model: Model, events: Sequence[Entry], flown: Flown
 def qualified_ok(engine: Engine, p: float) -> bool:
     q = engine.qualified_pressure_pa
     return q is None or not (p == p) or q[0] <= p <= q[1]
+
+
+def flyer(model: Model, temps: np.ndarray):
+    """``fly_fn`` for ``capability.check``: burns (engine id, dv) flown in order, a table engine's draw by
+    ``dv_draw`` (the falling Isp integrated over it), a constant engine's by the rocket equation."""
+    from .capability import State  # noqa: PLC0415 - capability does not import this module
+
+    craft = model.craft
+    temps = np.asarray(temps, dtype=float)[None, :]
+
+    def fly(state, burns):
+        m, rem, draws = float(state.mass_kg), np.array(state.remaining_kg, dtype=float), []
+        for engine_id, dv in burns:
+            e = craft.engine_index(engine_id)
+            if e in model.perf and model.pressurised(e):
+                x = float(dv_draw(model, e, m, rem[None, :], temps, float(dv))[0])
+            else:
+                x = float(-m * np.expm1(-float(dv) / craft.engines[e].ve))
+            draw = x * model.frac[e]
+            rem, m = rem - draw, m - x
+            draws.append(draw)
+        return State(m, rem), draws
+
+    return fly

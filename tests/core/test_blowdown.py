@@ -210,3 +210,14 @@ def test_codec_keeps_tables_and_an_old_stored_craft_falls_back_to_the_ideal_gas(
     p_real = float(bd.Model(c).tanks[0].pressure(40.0, 293.15))
     assert float(old.tanks[0].pressure(57.0, 293.15)) == pytest.approx(22e5, rel=1e-9)
     assert 0.001 < abs(p_real - p_ideal) / p_real < 0.02
+
+
+def test_check_flies_a_table_engines_burn_against_the_falling_pressure():
+    # The check's propellant for a burn equals the delta-v ODE's draw (itself checked against solve_ivp).
+    from ledger.core import capability as cap
+    c = craft()
+    m = bd.Model(c)
+    state = cap.State(c.initial_mass_kg - 30.0, c.loads() - 30.0)
+    res = cap.check(c, state, "mono", 50.0, fly_fn=bd.flyer(m, np.array([293.15])))
+    want = reference_draw(m, 0, [27.0], [293.15], dv=50.0, m0=state.mass_kg)
+    assert res.propellant_kg == pytest.approx(want, rel=1e-6), f"scipy {scipy.__version__} solve_ivp"

@@ -221,3 +221,14 @@ def test_check_flies_a_table_engines_burn_against_the_falling_pressure():
     res = cap.check(c, state, "mono", 50.0, fly_fn=bd.flyer(m, np.array([293.15])))
     want = reference_draw(m, 0, [27.0], [293.15], dv=50.0, m0=state.mass_kg)
     assert res.propellant_kg == pytest.approx(want, rel=1e-6), f"scipy {scipy.__version__} solve_ivp"
+
+
+def test_zero_amounts_and_an_empty_history_replay_cleanly():
+    c = craft()
+    m = bd.Model(c)
+    ev = [Entry(1, "burn", 0.0, 0.0, "x", "", {"engine": "mono", "dv": 0.0}),
+          Entry(2, "use", 1.0, 0.0, "x", "", {"engine": "mono", "duration": 0.0})]
+    rep, flown = bd.replay_blowdown(c, m, ev, bd.event_temperatures(c, [0.0, 1.0], []))
+    assert rep.mass_kg == c.initial_mass_kg and np.all(np.isfinite(rep.dv)) and np.all(np.isfinite(flown.ve_event))
+    rep, _ = bd.replay_blowdown(c, m, [], bd.event_temperatures(c, [], []))
+    assert rep.mass_kg == c.initial_mass_kg

@@ -353,6 +353,11 @@ class Flown:
     passes: int
 
 
+def model_flow0(model: Model, engines: np.ndarray) -> np.ndarray:
+    """Each engine's mass flow at loading (what a zero-length firing is counted at)."""
+    return model.craft.mass_flows()[engines]
+
+
 def event_temperatures(craft: Craft, ats: np.ndarray, readings: Sequence[tuple[int, float, float]]) -> np.ndarray:
     """(n, tanks) tank temperature at each event time: the latest reading (tank index, at, K) at or
     before it, else the pressurant's loading temperature (else 293.15 K for tanks without one)."""
@@ -432,11 +437,13 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
         x = new_x
         a[dep], b[dep] = 1.0, -x[dep]
         with np.errstate(divide="ignore", invalid="ignore"):
-            ve_event[bydv] = steps.amount[bydv] / np.log(m_before[bydv] / (m_before[bydv] - x[bydv]))
+            ve_dv = steps.amount[bydv] / np.log(m_before[bydv] / (m_before[bydv] - x[bydv]))
+        ve_event[bydv] = np.where(np.isfinite(ve_dv) & (x[bydv] > 0), ve_dv, ve0[eng[bydv]])
         rep = replay_affine(craft, steps, a, b, ve_event)
         if change <= TOL_REL * max(1.0, float(np.max(np.abs(x[dep])))):
             break
-    flow_event[timed] = x[timed] / duration[timed]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        flow_event[timed] = np.where(duration[timed] > 0, x[timed] / duration[timed], model_flow0(model, eng[timed]))
     p_start, p_end = np.full(n, np.nan), np.full(n, np.nan)
     r_before = np.vstack([craft.loads()[None, :], rep.remaining[:-1]]) if n else np.empty((0, len(craft.tanks)))
     timed_burn = timed & steps.is_burn
@@ -450,7 +457,8 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
                 dv[part] = dv_over_draw(model, e, rep.mass_before[part], r_before[part], temps[part], x[part],
                                         panels=int(n_panels))
         with np.errstate(divide="ignore", invalid="ignore"):
-            ve_event[timed_burn] = dv[timed_burn] / np.log(rep.mass_before[timed_burn] / rep.mass_after[timed_burn])
+            ve_t = dv[timed_burn] / np.log(rep.mass_before[timed_burn] / rep.mass_after[timed_burn])
+        ve_event[timed_burn] = np.where(np.isfinite(ve_t) & (x[timed_burn] > 0), ve_t, ve0[eng[timed_burn]])
         rep = replace(rep, dv=dv)
     for e in range(len(craft.engines)):
         sel = np.flatnonzero(engine_ok & (eng == e) & (steps.kind != STEP_MASS) & (steps.kind != STEP_REBASE))
@@ -528,3 +536,27 @@ def equivalent(craft: Craft, model: Model, events: Sequence[Entry], flown: Flown
 def qualified_ok(engine: Engine, p: float) -> bool:
     q = engine.qualified_pressure_pa
     return q is None or not (p == p) or q[0] <= p <= q[1]
+
+
+def flyer(model: Model, temps: np.ndarray):
+    """``fly_fn`` for ``capability.check``: burns (engine id, dv) flown in order, a table engine's draw by
+    ``dv_draw`` (the falling Isp integrated over it), a constant engine's by the rocket equation."""
+    from .capability import State  # noqa: PLC0415 - capability does not import this module
+
+    craft = model.craft
+    temps = np.asarray(temps, dtype=float)[None, :]
+
+    def fly(state, burns):
+        m, rem, draws = float(state.mass_kg), np.array(state.remaining_kg, dtype=float), []
+        for engine_id, dv in burns:
+            e = craft.engine_index(engine_id)
+            if e in model.perf and model.pressurised(e):
+                x = float(dv_draw(model, e, m, rem[None, :], temps, float(dv))[0])
+            else:
+                x = float(-m * np.expm1(-float(dv) / craft.engines[e].ve))
+            draw = x * model.frac[e]
+            rem, m = rem - draw, m - x
+            draws.append(draw)
+        return State(m, rem), draws
+
+    return fly

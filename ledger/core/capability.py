@@ -205,11 +205,15 @@ class CheckResult:
 
 
 def check(craft: Craft, state: State, engine_id: str, dv: float,
-          commitments: Sequence[tuple[str, float]] = ()) -> CheckResult:
-    """Fly the commitments, then the proposed burn, then the reserves; feasible if no tank goes short."""
-    after_plans, _ = fly(craft, state, commitments)
-    after_burn, draws = fly(craft, after_plans, [(engine_id, dv)])
-    after_all, _ = fly(craft, after_burn, [(r.engine, r.dv_m_s) for r in craft.reserves])
+          commitments: Sequence[tuple[str, float]] = (), fly_fn=None) -> CheckResult:
+    """Fly the commitments, then the proposed burn, then the reserves; feasible if no tank goes short.
+
+    ``fly_fn(state, burns)`` replaces the constant-ve ``fly`` (``core.blowdown.flyer``: each burn's
+    exhaust velocity following the feed pressure over its draw)."""
+    fly_fn = fly_fn or (lambda st, burns: fly(craft, st, burns))
+    after_plans, _ = fly_fn(state, commitments)
+    after_burn, draws = fly_fn(after_plans, [(engine_id, dv)])
+    after_all, _ = fly_fn(after_burn, [(r.engine, r.dv_m_s) for r in craft.reserves])
     ids = craft.tank_ids
     margin = after_all.remaining_kg - craft.residuals()
     short_plans = after_plans.remaining_kg - craft.residuals() < -EPS_KG

@@ -172,7 +172,11 @@ def _mass_parts(value: Any) -> float | None:
 
 def _ratio_sigma(value: Any, where: str) -> float:
     """A one-sigma mixture ratio (a plain number, mass parts per part) as a finite float >= 0."""
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(float(value)) or value < 0:
+    try:
+        ok = not isinstance(value, bool) and isinstance(value, (int, float)) and math.isfinite(float(value)) and value >= 0
+    except OverflowError:  # a whole number too large for a float
+        ok = False
+    if not ok:
         raise InputError(f"{where}: expected a one-sigma mixture ratio such as 0.02 (a number >= 0), got {shown(value)}")
     return float(value)
 

@@ -102,7 +102,9 @@ def check_from(snap: Snapshot, s: mc.Samples, engine: str, dv: float, confidence
     """The nominal check plus its probability over the samples and the three-way verdict."""
     from ..core import sampled  # noqa: PLC0415 - only once samples exist
 
-    res = cap.check(snap.flight_craft, snap.state, engine, dv, plans)
+    from .views import _flyer  # noqa: PLC0415
+
+    res = cap.check(snap.flight_craft, snap.state, engine, dv, plans, fly_fn=_flyer(snap))
     sc = sampled.check_samples(snap.flight_craft, s, engine, dv, plans)
     p = sc.probability
     verdict = "infeasible" if not res.feasible else "feasible" if p >= confidence else "marginal"

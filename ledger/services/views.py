@@ -119,7 +119,8 @@ def commitments(snap: Snapshot, exclude_plan: int | None = None) -> list[tuple[s
 
 def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
           exclude_plan: int | None = None) -> dict[str, Any]:
-    res = cap.check(snap.flight_craft, snap.state, engine, dv, commitments(snap, exclude_plan) if include_pending else [])
+    res = cap.check(snap.flight_craft, snap.state, engine, dv, commitments(snap, exclude_plan) if include_pending else [],
+                    fly_fn=_flyer(snap))
     return {
         "engine": res.engine, "dv_m_s": res.dv_m_s,
         "verdict": "feasible" if res.feasible else "infeasible",
@@ -129,6 +130,16 @@ def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
         "commitments": [{"engine": e, "dv_m_s": d} for e, d in res.commitments],
         "reason": res.reason, "caution": CAUTION,
     }
+
+
+def _flyer(snap: Snapshot):
+    """For a craft with performance tables: burns flown against the falling feed pressure (else None)."""
+    view = snap.blowdown
+    if view is None or view.flown is None:
+        return None
+    from ..core.blowdown import flyer  # noqa: PLC0415
+
+    return flyer(view.model, view.temperature_k)
 
 
 def _amount(data) -> str:

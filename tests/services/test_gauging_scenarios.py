@@ -80,7 +80,9 @@ def test_lunar_blowdown_error_grows_as_the_tank_empties(snaps):
     d = r["details"]
     ratio = d["ullage_m3"] / d["liquid_volume_m3"]
     first_order = ratio * r["pressure_sigma_pa"] / d["gas_pressure_pa"] * r["propellant_kg"]
-    assert ratio > 5 and r["sigma_kg"] > first_order and r["sigma_kg"] < 2 * first_order
+    # within 10 % below (the first-order form is not a bound: at V_u/V_p near 9, since the scenario's engines
+    # fly with Isp falling with feed pressure, the sampled sigma is a few % under it) and 2x above
+    assert ratio > 5 and 0.9 * first_order < r["sigma_kg"] < 2 * first_order
 
 
 @pytest.mark.parametrize("name, tank_id, t_k, factor", [

@@ -52,7 +52,8 @@ def window(snap: Snapshot, since: str | float | None, end: float) -> dict[str, A
 def _flat(value: Any) -> str:
     """A gauge comparison of unknown shape as one readable line (numbers to 6 significant figures)."""
     if isinstance(value, Mapping):
-        return "; ".join(f"{str(k).replace('_', ' ')} {_flat(v)}" for k, v in value.items())
+        # a key without a value (a two-phase reading has no estimate or sigma) says nothing: leave it out
+        return "; ".join(f"{str(k).replace('_', ' ')} {_flat(v)}" for k, v in value.items() if v is not None)
     if isinstance(value, (list, tuple)):
         return ", ".join(_flat(v) for v in value)
     if isinstance(value, float):

@@ -150,3 +150,16 @@ def test_pressurant_offset_default_follows_the_last_firing(led):
     assert given["sigmas"]["gas_temperature_offset_k"] == 2.0 and given["sigma_kg"] > soon["sigma_kg"]
     with pytest.raises(InputError, match="gas-stored"):
         gauging.default_sigmas(CRAFT.tanks[0], gas_temperature_offset_k=1.0)
+
+
+def test_handover_shows_a_two_phase_range_without_empty_figures(led):
+    """The handover's gauge line of a two-phase reading names the range and no estimate (it said 'sigma
+    None'); the saturation pressure is CoolProp 8.0.0's, called directly."""
+    from ledger.services import handover  # noqa: PLC0415
+
+    t = 285.0
+    gauging.record_gauge(led, "xe", PropsSI("P", "T", t, "Q", 0, "Xenon"), t, at=T0 + 3600, by="test")
+    report = handover.assemble(led, from_name="A. Day", to_name="B. Night")
+    line = next(g["summary"] for g in report["gauge"] if g["tank"] == "xe")
+    assert "two-phase" in line and "min kg" in line and "max kg" in line
+    assert "None" not in line

@@ -7,7 +7,15 @@ on the thrusters (§7, Soop's drift rate from memory, the delta-v computed). Loa
 """
 from __future__ import annotations
 
+import os
+
 import pytest
+
+if os.environ.get("PYTEST_XDIST_WORKER"):
+    # pytest-xdist's workers set COLUMNS=80 and LINES=24; the command line honours COLUMNS (it wraps its
+    # output there), so a worker would test another terminal than the one the tests describe.
+    for _name in ("COLUMNS", "LINES"):
+        os.environ.pop(_name, None)
 
 from ledger.services import craftfile
 from ledger.services.ledger import Ledger, create

@@ -306,6 +306,9 @@ class LedgerFile:
         """Hold the ledger's exclusive lock (re-entrant) around a whole read-check-write."""
         from filelock import Timeout  # noqa: PLC0415
 
+        folder = os.path.dirname(self.path)
+        if not os.path.isdir(folder):  # the lock library would make the folder: a typo must change nothing
+            raise StoreError(f"{self.path}: no ledger here (folder {folder} does not exist); nothing was changed")
         lock = lock_for(self.path)
         stray = not os.path.lexists(lock.lock_file)  # a lock file this call makes for a ledger that may not exist
         try:

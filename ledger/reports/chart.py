@@ -79,8 +79,14 @@ def svg(series: Mapping[str, Mapping[str, Sequence[float]]]) -> str | None:
         ax.set_ylim(bottom=0)
         ax.grid(True, lw=0.4, alpha=0.5)
         ax.legend(loc="upper right", fontsize=7, frameon=False)
-        buf = io.StringIO()
-        fig.savefig(buf, format="svg", metadata={"Date": None})
+        return svg_of(fig)  # inside the rc context: its SVG settings (text as text) apply
+
+
+def svg_of(fig) -> str:
+    """A matplotlib figure as inline SVG: no XML prolog, no fixed size (the page scales it), no date (the
+    same figure gives the same bytes)."""
+    buf = io.StringIO()
+    fig.savefig(buf, format="svg", metadata={"Date": None})
     text = buf.getvalue()
     text = text[text.index("<svg"):]
     head_end = text.index(">")

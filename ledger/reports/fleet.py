@@ -6,7 +6,6 @@ handover window (the single-craft report's sections, headed with the craft's nam
 """
 from __future__ import annotations
 
-import io
 from typing import Any, Mapping, Sequence
 
 from . import layout
@@ -94,7 +93,7 @@ def margins_svg(rows: Sequence[Mapping[str, Any]], margin: float) -> str | None:
     import matplotlib  # noqa: PLC0415 - heavy; only for the HTML report
     from matplotlib.figure import Figure  # noqa: PLC0415
 
-    from .chart import _SIZE_ATTRS  # noqa: PLC0415
+    from .chart import svg_of  # noqa: PLC0415
 
     rc = {"svg.fonttype": "none", "svg.hashsalt": "propledger", "text.parse_math": False, "font.size": 8,
           "font.family": "sans-serif"}
@@ -114,12 +113,7 @@ def margins_svg(rows: Sequence[Mapping[str, Any]], margin: float) -> str | None:
         ax.set_xlim(left=0)
         ax.grid(True, axis="x", lw=0.4, alpha=0.5)
         ax.legend(loc="lower center", bbox_to_anchor=(0.5, 1.0), ncol=3, fontsize=7, frameon=False)
-        buf = io.StringIO()
-        fig.savefig(buf, format="svg", metadata={"Date": None})
-    text = buf.getvalue()
-    text = text[text.index("<svg"):]
-    head_end = text.index(">")
-    return _SIZE_ATTRS.sub("", text[:head_end], count=2) + text[head_end:]
+        return svg_of(fig)  # inside the rc context: its SVG settings (text as text) apply
 
 
 def render(report: Mapping[str, Any], fmt: str) -> str:

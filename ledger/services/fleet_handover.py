@@ -10,10 +10,9 @@ from __future__ import annotations
 
 from typing import Any
 
-from ..errors import InputError, LedgerError
+from ..errors import LedgerError
 from . import fleet, handover
 from .ledger import Ledger
-from .records import clean_text
 from .timefmt import iso, now as clock
 from .views import CAUTION
 
@@ -23,11 +22,7 @@ def assemble(source: fleet.FolderSource, *, from_name: str | None, to_name: str 
              workers: int = fleet.WORKERS) -> dict[str, Any]:
     """The fleet handover as plain data; reads only (``record`` writes). The names are checked first, the
     way the single-craft handover checks them, so a missing name is one error, not one per craft."""
-    names = {}
-    for key, value in (("from", from_name), ("to", to_name)):
-        names[key] = clean_text(value, f"--{key}")
-        if not names[key]:
-            raise InputError(f"handover: --{key} is required (the name of the engineer)")
+    names = handover.shift_names(from_name, to_name)
     end = clock() if now is None else float(now)
     rows = fleet.view(fleet.rows(source, workers=workers), margin=margin, now=end)
     craft = []

@@ -112,14 +112,20 @@ def _status_with_bounds(snap) -> dict[str, Any]:
         return status
 
 
-def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, since: str | float | None = None,
-             now: float | None = None) -> dict[str, Any]:
-    """The handover as plain data; reads only. ``now`` closes the window (default: the clock)."""
+def shift_names(from_name: str | None, to_name: str | None) -> dict[str, str]:
+    """The two engineers of a handover, cleaned; either missing is one error (checked before any work)."""
     names = {}
     for key, value in (("from", from_name), ("to", to_name)):
         names[key] = clean_text(value, f"--{key}")
         if not names[key]:
             raise InputError(f"handover: --{key} is required (the name of the engineer)")
+    return names
+
+
+def assemble(ledger: Ledger, *, from_name: str | None, to_name: str | None, since: str | float | None = None,
+             now: float | None = None) -> dict[str, Any]:
+    """The handover as plain data; reads only. ``now`` closes the window (default: the clock)."""
+    names = shift_names(from_name, to_name)
     end = clock() if now is None else float(now)
     snap = ledger.snapshot()
     head_seq, head_hash = ledger.file.head()

@@ -142,9 +142,13 @@ def candidates(path: str, sha: str, firings: list[Firing], how: str, config: dic
         source.update(rows=_rows(fs), row_count=len(fs), group=label, thrusters=sorted({f.thruster for f in fs}),
                       key=[USE, engine, label])
         counted = [f.pulses for f in fs if f.pulses is not None]
+        data: dict[str, Any] = {"engine": engine, "duration": total}
         if counted:
             source["pulses"] = int(sum(counted))
-        out.append(Candidate(USE, fs[0].at, {"engine": engine, "duration": total}, source,
+        if len(counted) == len(fs) and sum(counted) > 0:  # every row counted its pulses: a pulse train
+            n = int(sum(counted))   # (pulse-mode Isp, counted in the thruster's qualified pulses)
+            data.update(pulses=n, on_time=total / n, duration=n * (total / n))
+        out.append(Candidate(USE, fs[0].at, data, source,
                              f"{engine} {label}, rows {source['rows']}"))
     return out
 

@@ -163,6 +163,10 @@ def differences(current: Entry, cand: Candidate) -> dict[str, Any]:
     for f in AMOUNTS:
         if f in allowed and not _close(current.get(f), cand.data.get(f)) and cand.data.get(f) is not None:
             changes[f] = cand.data[f]
+    if cand.data.get("pulses") is not None and (current.get("pulses") != cand.data["pulses"]
+                                                or not _close(current.get("on_time"), cand.data.get("on_time"))):
+        changes.update(pulses=cand.data["pulses"], on_time=cand.data["on_time"])  # a recounted pulse train
+        changes.pop("duration", None)  # the correction's pulse train gives its own total on-time
     if "sigma" in allowed and not _close(current.get("sigma"), cand.data.get("sigma")):
         if cand.data.get("sigma") is not None:
             changes["sigma"] = cand.data["sigma"]

@@ -129,6 +129,8 @@ def test_plan_reconstruction_and_firings_land_once_with_their_sources(led, tmp_p
     uses = sorted((r for r in rows if r["kind"] == "use"), key=lambda r: r["at"])
     assert [u["data"]["duration_s"] for u in uses] == pytest.approx([0.75, 0.75])  # 100+110+...+150 ms
     assert [u["data"]["source"]["pulses"] for u in uses] == [12, 18]  # 6 rows x 2, 6 rows x 3
+    assert [u["data"]["pulses"] for u in uses] == [12, 18]  # stored as pulse trains (pulse Isp, life totals)
+    assert [u["data"]["on_time_s"] * u["data"]["pulses"] for u in uses] == pytest.approx([0.75, 0.75])
     assert [u["data"]["source"]["rows"] for u in uses] == ["2-7", "8-13"]
 
 
@@ -264,7 +266,8 @@ def test_a_recounted_firings_file_corrects_its_group_and_leaves_the_others(led, 
     doc = json.loads(out)
     assert (doc["recorded"], doc["corrected"], doc["unchanged"]) == (0, 1, 1)
     fix = next(r for r in log(led) if r["kind"] == "correct")
-    assert fix["changes"]["duration_s"] == pytest.approx(0.81)  # 0.75 s + 60 ms
+    ch = fix["changes"]  # the pass counted its pulses, so the correction gives the recounted pulse train
+    assert ch["pulses"] * ch["on_time_s"] == pytest.approx(0.81)  # 0.75 s + 60 ms
 
 
 @pytest.mark.parametrize("name, content", [

@@ -43,7 +43,10 @@ def test_pass_orbit_and_none_grouping():
     assert [(e, [f.line for f in g]) for e, _, g in orbits] == [("rcs", [2, 3, 5]), ("lae", [4]), ("rcs", [6])]
     assert len(group(fs, "none", CONF, "day.csv")) == 5
     cands = candidates("day.csv", "0" * 64, fs, "orbit", CONF)
-    assert cands[0].data == {"engine": "rcs", "duration": pytest.approx(0.6)}  # 0.1 + 0.2 + 0.3 s
+    # every row of the group counts its pulses: a pulse train of 9 pulses, 0.6 s in all (0.1 + 0.2 + 0.3 s)
+    assert cands[0].data == {"engine": "rcs", "duration": pytest.approx(0.6), "pulses": 9,
+                             "on_time": pytest.approx(0.6 / 9)}
+    assert cands[2].data == {"engine": "rcs", "duration": pytest.approx(cands[2].data["duration"])}  # no count
     assert cands[0].source["pulses"] == 9 and cands[0].source["rows"] == "2-5" and cands[0].source["row_count"] == 3
     assert "pulses" not in cands[2].source  # row 6 gives no count
 

@@ -24,6 +24,7 @@ from ledger.core.codec import craft_to_dict  # noqa: E402
 from ledger.core.craft import Craft, Engine, Performance, Pressurant, Reserve, Tank  # noqa: E402
 from ledger.services.records import make_record  # noqa: E402
 from ledger.store.ledgerfile import LedgerFile  # noqa: E402
+from core_bench import best_child  # noqa: E402  (best wall and its CPU, as in the core benchmark)
 
 T0 = 1_700_000_000.0
 OCM = Performance((5.5e5, 10e5, 15e5, 22e5), (22.4, 41.4, 61.3, 88.0), (204.5, 218.3, 226.4, 231.5))
@@ -69,20 +70,6 @@ def build(folder: str, name: str, c: Craft, n: int) -> str:
     recs = [make_record(k, T0 + 600.0 * i, T0 + 600.0 * i, "bench", "", d) for i, (k, d) in enumerate(history(n))]
     LedgerFile(path).append_many(recs)
     return path
-
-
-def best_child(cmd: list[str], env: dict, repeat: int) -> tuple[float, float]:
-    best_wall, best_cpu = float("inf"), float("nan")
-    for _ in range(repeat):
-        before = resource.getrusage(resource.RUSAGE_CHILDREN)
-        t = time.perf_counter()
-        subprocess.run(cmd, env=env, capture_output=True, check=True)
-        wall = time.perf_counter() - t
-        after = resource.getrusage(resource.RUSAGE_CHILDREN)
-        if wall < best_wall:
-            best_wall = wall
-            best_cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
-    return best_wall, best_cpu
 
 
 MC_CHILD = """

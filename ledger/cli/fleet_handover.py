@@ -5,7 +5,7 @@ import json
 import os
 import sys
 
-from ..errors import InputError, StoreError
+from ..errors import InputError
 from ..services import fleet, fleet_handover
 from .common import plain, warn
 
@@ -37,16 +37,10 @@ def cmd_fleet_handover(args) -> int:
         from ..reports.fleet import render  # noqa: PLC0415 - reports only when asked for
 
         text = render(report, args.format)
-    if out is None:
-        sys.stdout.write(text)
-        sys.stdout.flush()
-    else:
-        from ..services.outpaths import write_atomic  # noqa: PLC0415
+    from .handover import emit  # noqa: PLC0415 - handover imports this module lazily
 
-        try:
-            write_atomic(out, text, force=args.force)
-        except (OSError, InputError, StoreError) as exc:
-            raise StoreError(f"writing the fleet report failed: {exc}") from None
+    emit(text, out, args.force, "writing the fleet report failed")
+    if out is not None:
         print(f"wrote {plain(out)}", file=sys.stderr)
     recorded = [p for p in report["craft"] if p["report"] and (p["report"].get("record") or {}).get("recorded")]
     if not args.no_record:

@@ -50,6 +50,21 @@ def render(report: dict, fmt: str) -> str:
     return render_report(report, fmt)
 
 
+def emit(text: str, out: str | None, force: bool, failed: str) -> None:
+    """A rendered report to stdout, or atomically to ``out`` (services.outpaths); a failed write is one
+    error line that starts with ``failed``."""
+    if out is None:
+        sys.stdout.write(text)
+        sys.stdout.flush()
+        return
+    from ..services.outpaths import write_atomic  # noqa: PLC0415
+
+    try:
+        write_atomic(out, text, force=force)
+    except (OSError, InputError, StoreError) as exc:
+        raise StoreError(f"{failed}: {exc}") from None
+
+
 def cmd_handover(args) -> int:
     if getattr(args, "fleet", None):
         from .fleet_handover import cmd_fleet_handover  # noqa: PLC0415
@@ -62,17 +77,8 @@ def cmd_handover(args) -> int:
         handover.record(led, report, note=args.note)
     text = render(report, args.format)
     rec = report["record"]
-    if out is None:
-        sys.stdout.write(text)
-        sys.stdout.flush()
-    else:
-        from ..services.outpaths import write_atomic  # noqa: PLC0415
-
-        try:
-            write_atomic(out, text, force=args.force)
-        except (OSError, InputError, StoreError) as exc:
-            done = f"handover recorded as entry {rec['entry']}, but " if rec.get("recorded") else ""
-            raise StoreError(f"{done}writing the report failed: {exc}") from None
+    done = f"handover recorded as entry {rec['entry']}, but " if rec.get("recorded") else ""
+    emit(text, out, args.force, f"{done}writing the report failed")
     if rec.get("recorded"):  # plain print: a path must stay whole on one line
         print(f"recorded handover entry {rec['entry']}; backup: {plain(rec.get('backup') or 'none')}", file=sys.stderr)
     if out is not None:

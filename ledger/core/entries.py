@@ -142,6 +142,11 @@ def resolve(entries: Iterable[Entry]) -> Resolved:
         if "plan_warnings" in e.data:  # a corrected burn's plan warnings, re-worked when it was corrected
             fixed = fixed._replace(data={**fixed.data, "plan_warnings": list(e.data["plan_warnings"])})
         effective[root] = fixed
+        redo = e.data.get("executed")  # a corrected plan: its executing burn's plan warnings, re-worked
+        if isinstance(redo, dict) and int(redo.get("burn", -1)) in effective:
+            b = int(redo["burn"])
+            effective[b] = effective[b]._replace(data={**effective[b].data,
+                                                       "plan_warnings": list(redo.get("plan_warnings") or [])})
     executed_by: dict[int, int] = {}
     withdrawn: set[int] = set()
     events, plans = [], []

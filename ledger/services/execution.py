@@ -158,21 +158,52 @@ def preview(snap: Snapshot, data: Mapping[str, Any], at: float | None = None) ->
     return plan_warnings(snap, payload, t if at is None else float(at), t)
 
 
-def before(snap: Snapshot, seq: int) -> Snapshot:
-    """The ledger as it stood just before entry ``seq`` was appended: its earlier entries, replayed."""
-    from ..core.entries import resolve  # noqa: PLC0415
+def before(snap: Snapshot, seq: int, plan: Any = None) -> Snapshot:
+    """The ledger as it stood just before entry ``seq`` was appended: its earlier entries, replayed. With
+    ``plan`` (an effective plan entry), that plan reads as given instead of as it stood then: a burn's plan
+    warnings are judged against the plan as corrected, never against content a correction has replaced."""
+    from ..core.entries import CORRECT, resolve  # noqa: PLC0415
     from ..core.replay import replay  # noqa: PLC0415
     from .ledger import assemble  # noqa: PLC0415
 
     entries = tuple(e for e in snap.entries if e.seq < seq)
+    if plan is not None:
+        by_seq = {e.seq: e for e in snap.entries}
+        entries = tuple(plan if e.seq == plan.seq else e for e in entries
+                        if not (e.kind == CORRECT and _root(int(e.data["entry"]), by_seq) == plan.seq))
     resolved = resolve(entries)
     return assemble(snap.path, snap.craft, snap.meta, [], entries, resolved, replay(snap.craft, resolved.events),
                     None)
 
 
+def _root(seq: int, by_seq: Mapping[int, Any]) -> int:
+    from ..core.entries import CORRECT  # noqa: PLC0415
+
+    while by_seq[seq].kind == CORRECT:
+        seq = int(by_seq[seq].data["entry"])
+    return seq
+
+
 def corrected_warnings(snap: Snapshot, burn_seq: int, corrected: Any) -> list[str]:
     """The plan warnings for a burn's corrected content: worked out as when the burn was recorded (the
-    ledger before it, the clock at its recording), with the corrected engine, amount, time and plan."""
+    ledger before it, the clock at its recording, the plan as corrected so far), with the corrected engine,
+    amount, time and plan."""
     original = next(e for e in snap.entries if e.seq == burn_seq)
     payload = {k: v for k, v in corrected.data.items() if k != "plan_warnings"}
-    return plan_warnings(before(snap, burn_seq), payload, corrected.at, original.recorded)
+    plan_seq = payload.get("plan")
+    plan = snap.resolved.effective.get(int(plan_seq)) if plan_seq is not None else None
+    return plan_warnings(before(snap, burn_seq, plan), payload, corrected.at, original.recorded)
+
+
+def executed_warnings(snap: Snapshot, plan_seq: int, corrected_plan: Any) -> dict[str, Any] | None:
+    """For a correction of a plan a burn has already executed: that burn's plan warnings re-worked against
+    the corrected plan (``{"burn": seq, "plan_warnings": [...]}``), or None when no burn executed it. Stored
+    on the plan's correction, so the burn's warnings say the same in every screen after the correction."""
+    burn_seq = snap.resolved.executed_by.get(int(plan_seq))
+    if burn_seq is None:
+        return None
+    burn = snap.resolved.effective[burn_seq]
+    original = next(e for e in snap.entries if e.seq == burn_seq)
+    payload = {k: v for k, v in burn.data.items() if k != "plan_warnings"}
+    found = plan_warnings(before(snap, burn_seq, corrected_plan), payload, burn.at, original.recorded)
+    return {"burn": int(burn_seq), "plan_warnings": found}

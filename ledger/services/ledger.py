@@ -246,6 +246,12 @@ class Ledger:
 
                 # the burn's plan warnings for its corrected content (resolve puts them on the burn)
                 payload["plan_warnings"] = corrected_warnings(snap, root, merged)
+            elif merged.kind == PLAN:
+                from .execution import executed_warnings  # noqa: PLC0415
+
+                found = executed_warnings(snap, root, merged)  # the burn that executed it, judged again
+                if found is not None:
+                    payload["executed"] = found
             rec = make_record(CORRECT, now(), now(), by, None, payload)
             rec["at"] = rec["recorded"]
             stored = self.file.append(_readable(rec))

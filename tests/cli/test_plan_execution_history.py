@@ -85,3 +85,27 @@ def test_a_correction_reworks_the_burns_plan_warnings(tmp_path):
     # the original burn entry keeps what was stored when it was recorded (history is not rewritten)
     original = next(r for r in _log(path) if r["id"] == 3)
     assert any("achieved dv 8.000" in w for w in original["data"]["plan_warnings"])
+
+
+def test_a_plan_correction_reworks_its_executing_burns_warnings(tmp_path):
+    """The plan said 10 m/s, the burn flew 8 m/s (flagged: |8 - 10| = 2 m/s > max(10 % of 10, 0.05) = 1 m/s).
+    Flight dynamics then corrects the plan to 8.5 m/s: |8 - 8.5| = 0.5 m/s is within max(0.85, 0.05) m/s, so
+    the burn's warning about the achieved dv goes; correcting it to 12 m/s flags it against 12 m/s."""
+    path = _ledger(tmp_path)
+    run("--ledger", path, "burn", "--engine", "lae", "--dv", "8 m/s", "--plan", "2", "--at", AT_PLAN, check=True)
+    assert any("achieved dv 8.000 m/s differs from plan #2's 10.000" in w for w in _status(path)["warnings"])
+    run("--ledger", path, "correct", "--entry", "2", "--dv", "8.5 m/s", "--reason", "OD update", check=True)
+    now = [w for w in _status(path)["warnings"] if w.startswith("burn #3")]
+    assert not any("achieved dv" in w for w in now), now
+    assert any("never approved" in w for w in now), now            # still true: the plan was never approved
+    assert not any("already executed" in w for w in now), now      # judged as when the burn was recorded
+    run("--ledger", path, "correct", "--entry", "2", "--dv", "12 m/s", "--reason", "OD update 2", check=True)
+    now = [w for w in _status(path)["warnings"] if w.startswith("burn #3")]
+    assert any("achieved dv 8.000 m/s differs from plan #2's 12.000" in w for w in now), now
+    # a later correction of the burn is judged against the plan as corrected (12 m/s), not as first written
+    run("--ledger", path, "correct", "--entry", "3", "--dv", "11.9 m/s", "--reason", "recount", check=True)
+    now = [w for w in _status(path)["warnings"] if w.startswith("burn #3")]
+    assert not any("achieved dv" in w for w in now), now           # |11.9 - 12| = 0.1 m/s within 1.2 m/s
+    # the log keeps every record as written: the burn's own stored warning is still the original one
+    original = next(r for r in _log(path) if r["id"] == 3)
+    assert any("plan #2's 10.000" in w for w in original["data"]["plan_warnings"])

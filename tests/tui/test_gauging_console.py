@@ -217,3 +217,29 @@ def test_rebaseline_beyond_three_sigma_is_refused_unless_forced(ledger_path):
     run(go())
     assert count(ledger_path) == before + 1
     assert Ledger(ledger_path).snapshot().entries[-1].data["forced"] is True
+
+
+def test_the_form_takes_the_gas_temperature_offset_sigma(ledger_path):
+    """The console form's 'gas temp. σ' is the command line's --gas-temperature-offset: the preview equals the
+    service's reading with that sigma, and a wider offset (3 K against the 0.5 K default for a settled tank)
+    can only widen the mass uncertainty (a larger input variance; the estimate's sensitivity is unchanged)."""
+    async def go():
+        app = make_app(ledger_path)
+        async with app.run_test(size=(100, 40)) as pilot:
+            form = await open_gauge(app, pilot, "20.5 bar", "21 degC")
+            form.query_one("#f-g_offset", Input).value = "3 K"
+            await pilot.pause(0.05)
+            await pilot.press("ctrl+s")
+            await until(pilot, lambda: form.previewed is not None, what="preview")
+            reading = form.previewed[1]
+            assert reading["sigmas"]["gas_temperature_offset_k"] == 3.0
+            tank = gauging.tank_of(app.snap, "hyd")
+            at = parse_time(AT, "at")
+            wide = gauging.gauge_reading(app.snap, "hyd", 20.5e5, 294.15,
+                                         gauging.default_sigmas(tank, None, None, 3.0), at=at)
+            default = gauging.gauge_reading(app.snap, "hyd", 20.5e5, 294.15, at=at)
+            assert reading["sigma_kg"] == wide["sigma_kg"]
+            assert default["sigmas"]["gas_temperature_offset_k"] < 3.0
+            assert wide["sigma_kg"] > default["sigma_kg"]
+
+    run(go())

@@ -117,6 +117,10 @@ class GaugeForm(FormDialog):
                                                                         "temperature sigma", required=False,
                                                                         unit_hint="e.g. 0.5 K"),
                   "blank = 0.5 K"),
+            Field("g_offset", "gas temp. σ", lambda s: fields.quantity(s, "temperature_difference",
+                                                                       "gas temperature offset sigma",
+                                                                       required=False, unit_hint="e.g. 1 K"),
+                  "liquid tanks: pressurant vs wall sensor; blank = 1 K after a burn, else 0.5 K"),
             Field("at", "read at", fields.when, WHEN_HINT),
             *common_tail(),
         ]
@@ -132,12 +136,13 @@ class GaugeForm(FormDialog):
 
     @staticmethod
     def _key(values: dict[str, Any]) -> tuple:
-        return tuple(values.get(k) for k in ("tank", "pressure", "temperature", "p_sigma", "t_sigma", "at"))
+        return tuple(values.get(k) for k in ("tank", "pressure", "temperature", "p_sigma", "t_sigma", "g_offset",
+                                             "at"))
 
     def commit(self, values: dict[str, Any]) -> Any:
         snap, live = self.app.snap, self.app.live
         tank = gauging.tank_of(snap, values["tank"])
-        sigmas = gauging.default_sigmas(tank, values.get("p_sigma"), values.get("t_sigma"))
+        sigmas = gauging.default_sigmas(tank, values.get("p_sigma"), values.get("t_sigma"), values.get("g_offset"))
         key = self._key(values)
         if self.previewed is not None and self.previewed[0] == key:
             at = parse_time(self.previewed[1]["at"], "time")

@@ -13,6 +13,7 @@ from textual.widgets import Static
 
 from ...services.views import CAUTION
 from ...services.warnings import LIFE_WARN_SHARE
+from ..fmt import COLOUR
 from .detail import fit_scroll
 
 LIFE_WORD = {"pulses": "pulses", "throughput_kg": "throughput", "on_time_s": "on-time"}
@@ -36,7 +37,7 @@ def engines_text(craft, totals: Sequence[dict[str, Any]]) -> Text:
             used = t["life_used"].get(key, 0.0)
             value = t["pulses"] if key == "pulses" else t[key]
             unit = {"pulses": "", "throughput_kg": " kg", "on_time_s": " s"}[key]
-            style = "bold red" if used >= 1 else "bold yellow" if used >= LIFE_WARN_SHARE else ""
+            style = "bold red" if used >= 1 else f"bold {COLOUR['attention']}" if used >= LIFE_WARN_SHARE else ""
             out.append(f"  life {LIFE_WORD[key]}: {value:,.6g} of {limit:,.6g}{unit} ({100 * used:.0f} %)"
                        + ("  ⚠" if used >= LIFE_WARN_SHARE else "") + "\n", style=style)
         out.append("\n")

@@ -12,6 +12,7 @@ from textual.containers import VerticalScroll
 from textual.widgets import Static
 
 from ...services import imports
+from ..fmt import COLOUR
 from .base import LATER, Field, FormDialog, text_field
 
 FORMATS = [("as the file says (.csv = firings)", "auto"), ("ocm", "ocm"), ("opm", "opm"), ("firings (CSV)", "firings")]
@@ -35,7 +36,7 @@ def preview_text(data: dict[str, Any]) -> Text:
     for line in imports.summary_lines(data):
         out.append(line + "\n", style="bold" if line.startswith(("would", "recorded")) else "")
     for w in data["warnings"]:
-        out.append(f"⚠ {w}\n", style="yellow")
+        out.append(f"⚠ {w}\n", style=COLOUR["attention"])
     return out
 
 

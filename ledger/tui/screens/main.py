@@ -134,7 +134,7 @@ class MainScreen(Screen):
         mast = Text(no_wrap=True)
         mast.append(" ◆ propledger ", style="bold reverse")
         if getattr(self.app, "demo", False):
-            mast.append(" DEMO DATA ", style="bold black on yellow")
+            mast.append(" DEMO DATA ", style="bold reverse")
         mast.append(f" {craft} ", style="bold")
         for part in parts:
             if mast.cell_len + len(part) + 3 > width:

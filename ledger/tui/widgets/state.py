@@ -177,5 +177,5 @@ def forecast_line(f: dict[str, Any], wide: bool) -> Text:
     if wide and not f.get("shares_with"):
         out.append(f" at {f['dv_per_year_m_s']:g} m/s/y", style="grey70")
     if f.get("shares_with"):  # both dates assume only their own spend from tanks another engine drains too
-        out.append(" · shared tanks" if wide else " · shared", style="yellow")  # status says why: optimistic
+        out.append(" · shared tanks" if wide else " · shared", style=fmt.COLOUR["attention"])  # status says why: optimistic
     return out

@@ -66,8 +66,26 @@ def run(snap: Snapshot, samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED
         progress: mc.Progress | None = None) -> mc.Samples:
     from ..core import montecarlo as mc  # noqa: PLC0415 - only when samples are drawn
 
+    view = snap.blowdown
+    if view is not None and view.flown is not None:  # performance tables: each sample's own feedback
+        return _run_tables(snap, samples, seed, progress)
     return mc.simulate(snap.flight_craft, snap.flight_events, samples=samples, seed=seed, progress=progress,
                        workers=WORKERS)
+
+
+def _run_tables(snap: Snapshot, samples: int, seed: int, progress) -> mc.Samples:
+    """``core.mcblowdown``: every sample's draws move its later feed pressures; its capability integrates
+    ve(m) over its own remaining propellant. The linearisation depends only on the snapshot, so it is
+    kept on the snapshot's blowdown view for the other runs (checks, approvals) on the same snapshot."""
+    from ..core import mcblowdown  # noqa: PLC0415
+
+    view = snap.blowdown
+    lin = view.__dict__.get("_mc_linear")
+    if lin is None:
+        lin = mcblowdown.linearise(snap.craft, view.model, view.events, snap.replay, view.flown)
+        view.__dict__["_mc_linear"] = lin  # a frozen dataclass: cached the way cached_property does
+    return mcblowdown.simulate(snap.craft, view.model, view.events, snap.replay, view.flown, view.temperature_k,
+                               samples, seed, progress, linear=lin)
 
 
 def commitments(snap: Snapshot, approved_only: bool = False, exclude: int | None = None) -> list[tuple[str, float]]:

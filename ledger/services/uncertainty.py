@@ -38,6 +38,10 @@ moved by more than max(0.1 m/s, 1 % of the approved figure). 1 % is the default 
 (core.sigmas): a smaller move is inside what the figure could be known to anyway. Project choice."""
 
 
+TABLES_SAMPLER = "blowdown-feedback-1"
+"""Names the Monte Carlo of craft with performance tables (``core.mcblowdown``) in the confidence cache key."""
+
+
 MAX_SAMPLES = 1_000_000
 """Most samples one run takes: its arrays (craft draws, final states, capability per sample) stay within a few
 hundred megabytes, and 1e6 samples already put a 99.9 % bound's empirical quantile on 1,000 samples."""
@@ -239,6 +243,8 @@ def confidence_status(snapshot: Snapshot, confidence: float = DEFAULT_CONFIDENCE
         from .confcache import cached  # noqa: PLC0415
 
         key = {"head": list(snapshot.head), "confidence": confidence, "samples": samples, "seed": seed}
+        if snapshot.blowdown is not None and snapshot.blowdown.flown is not None:
+            key["sampler"] = TABLES_SAMPLER  # a result cached by the constant-performance stand-in is not reused
         return cached(side_path(snapshot.path), key, lambda: _confidence_status(snapshot, confidence, samples, seed, progress))
     return _confidence_status(snapshot, confidence, samples, seed, progress)
 

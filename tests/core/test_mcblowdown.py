@@ -160,6 +160,12 @@ def test_each_samples_dv_available_integrates_its_own_falling_isp():
         want = isp[k, 0] / 231.5 * quad(lambda y: ve(y) / (m - y), 0.0, draw, epsabs=0, epsrel=1e-12, limit=200)[0]
         got = s.ve[k, 0] * np.log(m / (m - draw))
         assert got == pytest.approx(want, rel=1e-8), f"scipy {scipy.__version__} integrate.quad"
+    # dv free of the engine that flies the reserve: the reserve flies last, at the lowest pressures, and
+    # delta-v adds along one draw (∫ over [0, D] = ∫ over [0, D - x_r] + ∫ over [D - x_r, D]), so per sample
+    # dv free = dv available - reserve dv with the falling Isp, whatever the pressure curve.
+    from ledger.core import sampled
+    _, avail, free = sampled.capability_samples(c, s)
+    assert np.allclose(free[:, 0], np.maximum(avail[:, 0] - 28.0, 0.0), rtol=0, atol=1e-9)
 
 
 def test_constant_performance_craft_keep_todays_sampler():

@@ -85,8 +85,31 @@ passes = snap.blowdown.flown.passes if snap.blowdown is not None and snap.blowdo
 t = time.perf_counter(); c = time.process_time()
 s = uncertainty.run(snap, samples={samples})
 wall, cpu = time.perf_counter() - t, time.process_time() - c
-print(json.dumps({{"snapshot_s": t_snap, "mc_s": wall, "mc_cpu_s": cpu, "passes": passes,
-                   "rss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
+rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+import tracemalloc
+tracemalloc.start(); snap2 = Ledger({path!r}).snapshot(); tracemalloc.reset_peak()
+uncertainty.run(snap2, samples={samples}); mc_peak = tracemalloc.get_traced_memory()[1] / 2**20; tracemalloc.stop()
+err = None
+if passes:  # the linearisation against the exact replay of 3 perturbed samples (core.mcblowdown.exact_sample)
+    import numpy as np
+    from ledger.core import mcblowdown as mb
+    from ledger.core.montecarlo import _globals
+    v, c = snap.blowdown, snap.craft
+    lin = mb.linearise(c, v.model, v.events, snap.replay, v.flown)
+    rng = np.random.default_rng(1)
+    dry, loads, isp, thrust = _globals(c, rng, 3)
+    phi, psi = mb.factors(c, isp, thrust)
+    ds0 = np.hstack([(dry - c.dry_mass_kg + (loads - c.loads()).sum(axis=1))[:, None], loads - c.loads()])
+    z = rng.standard_normal((3, len(v.events)))
+    got = lin.final(ds0, phi, psi, z)
+    err = []
+    for k in range(3):
+        r = mb.exact_sample(c, v.events, v.flown.temperatures, ds0[k], thrust[k] / [e.thrust_n for e in c.engines],
+                            isp[k] / [e.isp_s for e in c.engines], z[k])
+        exact = np.concatenate([[r.mass_kg], r.remaining_kg])
+        err.append([float(np.abs(got[k] - exact).max()), float(np.abs(exact - lin.nominal).max())])
+print(json.dumps({{"snapshot_s": t_snap, "mc_s": wall, "mc_cpu_s": cpu, "passes": passes, "rss_mb": rss,
+                   "mc_peak_mb": mc_peak, "err": err,
                    "low_kg": float(sorted(s.remaining_kg[:, 0])[len(s) // 100])}}))
 """
 
@@ -127,6 +150,11 @@ def main() -> None:
           f"{b['mc_cpu_s'] / c['mc_cpu_s']:.2f}x CPU")
     print(f"hz-1 remaining, 1 % low bound: constant {c['low_kg']:.3f} kg, blowdown {b['low_kg']:.3f} kg "
           f"(blowdown: each sample's draws move its own feed pressure, core/mcblowdown.py)")
+    print(f"Monte Carlo peak traced memory (numpy arrays included): constant {c['mc_peak_mb']:.0f} MB, "
+          f"blowdown {b['mc_peak_mb']:.0f} MB")
+    if b["err"]:
+        print("blowdown linearisation against the exact replay of 3 perturbed samples: "
+              + ", ".join(f"{e * 1000:.1f} g on a {d:.2f} kg deviation" for e, d in b["err"]))
     print("targets: status <= 0.6 s warm; Monte Carlo of 10,000 samples <= 3 s and <= 1 GB")
 
 

@@ -37,14 +37,13 @@ sample's own remaining propellant.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
 
 from . import blowdown as bd
-from .craft import G0, Craft
+from .craft import Craft
 from .entries import BURN, MASS, REBASELINE, Entry
 from .montecarlo import DEFAULT_SEED, Progress, Samples, _globals, generator, mixture_draws
 from .replay import Replay
@@ -167,16 +166,19 @@ def linearise(craft: Craft, model: bd.Model, events: Sequence[Entry], rep: Repla
             jr, jm = _sensitivity(model, e, r_before[sel], m_before[sel], temps[sel], amount[sel], x[sel], by_dv)
             j[sel, 0], j[sel, 1:] = jm, jr
             p_end = flown.pressure_end[sel]
-            r0, tt, rho_l, p_vap = bd._state(model, r_before[sel], temps[sel])
-            if np.any(~np.isfinite(p_end)):
+            if model.pressurised(e) and np.any(~np.isfinite(p_end)):
+                r0, tt, rho_l, p_vap = bd._state(model, r_before[sel], temps[sel])
                 p_end = np.where(np.isfinite(p_end), p_end, model.feed_pressure(e, r0, x[sel], tt, rho_l, p_vap))
-            if by_dv:
-                rate = (m_before[sel] - x[sel]) / model.ve(e, p_end)    # dx/d(dv) at the end of the burn
-                b[sel] = -amount[sel] * rate
-                nz[sel] = rate * nz[sel]
-            else:
-                rate = model.flow(e, p_end)                              # dx/dt at the end of the firing
-                a[sel] = amount[sel] * rate
+            known = np.isfinite(p_end)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                if by_dv:  # dx/d(dv) at the end of the burn (else at the burn's own mean ve)
+                    ve_end = np.where(known, model.ve(e, np.nan_to_num(p_end)), flown.ve_event[sel])
+                    rate = (m_before[sel] - x[sel]) / ve_end
+                    b[sel] = -amount[sel] * rate
+                else:      # dx/dt at the end of the firing (else its mean flow)
+                    mean = np.where(amount[sel] > 0, x[sel] / amount[sel], flow0[e])
+                    rate = np.where(known, model.flow(e, np.nan_to_num(p_end)), mean)
+                    a[sel] = amount[sel] * rate
                 nz[sel] = rate * nz[sel]
     # local maps: δs' = A δs + c_phi (φ-1) + c_psi (ψ-1) + dvec z
     e_ok = np.maximum(eng, 0)

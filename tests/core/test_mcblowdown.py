@@ -189,3 +189,21 @@ def test_a_rebaseline_wipes_the_tanks_earlier_errors():
     _, _, _, _, lin = setup(c, events)
     assert lin.start[1, 1] == 0.0
     assert np.sqrt((lin.noise[:, 1] ** 2).sum()) == pytest.approx(0.5)
+
+
+def test_a_drawn_feed_share_moves_where_each_kilogram_comes_from():
+    # A mixture-ratio draw changes the engine's feed shares; first order against the exact replay of the
+    # craft with those shares (the feed pressure's re-weighting between the tanks is second order here).
+    c = craft(tanks=2)
+    events = history()
+    model, temps, rep, flown, lin = setup(c, events)
+    share = 0.52
+    c2 = replace(c, engines=tuple(replace(e, feeds={"hz-1": share, "hz-2": 1 - share}) for e in c.engines))
+    r2, _ = bd.replay_blowdown(c2, bd.Model(c2), events, temps)
+    exact = np.concatenate([[r2.mass_kg], r2.remaining_kg])
+    dev = np.zeros((1, 2, 2))
+    dev[0, :, 0], dev[0, :, 1] = share - 0.5, 0.5 - share
+    got = lin.final(np.zeros((1, 3)), np.ones((1, 2)), np.ones((1, 2)), frac_dev=dev)[0]
+    moved = np.abs(exact - lin.nominal).max()
+    assert moved > 0.5
+    assert np.abs(got - exact).max() < 0.01 * moved

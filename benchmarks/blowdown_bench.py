@@ -4,6 +4,9 @@ prefix scan) in the same process.
 
 Run:  python benchmarks/blowdown_bench.py [--entries 20000] [--samples 10000]
 Targets (issue 12 point 6): status <= 0.6 s warm; the 10,000-sample Monte Carlo <= 3 s and <= 1 GB.
+The blowdown ledger's Monte Carlo is ``core.mcblowdown`` (each sample's feedback through its own feed
+pressure, linearised on the nominal path); the constant one is today's ``core.montecarlo``. Wall times on a
+shared machine move from run to run: compare the CPU seconds and the ratios.
 """
 from __future__ import annotations
 
@@ -16,6 +19,8 @@ import sys
 import tempfile
 import time
 from dataclasses import replace
+
+import numpy as np
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 sys.path.insert(0, ROOT)
@@ -82,8 +87,31 @@ passes = snap.blowdown.flown.passes if snap.blowdown is not None and snap.blowdo
 t = time.perf_counter(); c = time.process_time()
 s = uncertainty.run(snap, samples={samples})
 wall, cpu = time.perf_counter() - t, time.process_time() - c
-print(json.dumps({{"snapshot_s": t_snap, "mc_s": wall, "mc_cpu_s": cpu, "passes": passes,
-                   "rss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024,
+rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+import tracemalloc
+tracemalloc.start(); snap2 = Ledger({path!r}).snapshot(); tracemalloc.reset_peak()
+uncertainty.run(snap2, samples={samples}); mc_peak = tracemalloc.get_traced_memory()[1] / 2**20; tracemalloc.stop()
+err = None
+if passes:  # the linearisation against the exact replay of {exact} perturbed samples (core.mcblowdown.exact_sample)
+    import numpy as np
+    from ledger.core import mcblowdown as mb
+    from ledger.core.montecarlo import _globals
+    v, c = snap.blowdown, snap.craft
+    lin = mb.linearise(c, v.model, v.events, snap.replay, v.flown)
+    rng = np.random.default_rng(1)
+    dry, loads, isp, thrust = _globals(c, rng, {exact})
+    phi, psi = mb.factors(c, isp, thrust)
+    ds0 = np.hstack([(dry - c.dry_mass_kg + (loads - c.loads()).sum(axis=1))[:, None], loads - c.loads()])
+    z = rng.standard_normal(({exact}, len(v.events)))
+    got = lin.final(ds0, phi, psi, z)
+    err = []
+    for k in range({exact}):
+        r = mb.exact_sample(c, v.events, v.flown.temperatures, ds0[k], thrust[k] / [e.thrust_n for e in c.engines],
+                            isp[k] / [e.isp_s for e in c.engines], z[k])
+        exact = np.concatenate([[r.mass_kg], r.remaining_kg])
+        err.append([float(np.abs(got[k] - exact).max()), float(np.abs(exact - lin.nominal).max())])
+print(json.dumps({{"snapshot_s": t_snap, "mc_s": wall, "mc_cpu_s": cpu, "passes": passes, "rss_mb": rss,
+                   "mc_peak_mb": mc_peak, "err": err,
                    "low_kg": float(sorted(s.remaining_kg[:, 0])[len(s) // 100])}}))
 """
 
@@ -93,6 +121,7 @@ def main() -> None:
     ap.add_argument("--entries", type=int, default=20000)
     ap.add_argument("--samples", type=int, default=10000)
     ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--exact", type=int, default=3, help="samples replayed exactly to measure the linearisation")
     args = ap.parse_args()
     env = dict(os.environ, PYTHONPATH=ROOT)
     env.pop("PYTHONDONTWRITEBYTECODE", None)
@@ -105,7 +134,7 @@ def main() -> None:
             status = json.loads(first.stdout)
             wall, cpu = best_child(cmd, env, args.repeat)
             mc = json.loads(subprocess.run([sys.executable, "-c", MC_CHILD.format(root=ROOT, path=path,
-                                                                               samples=args.samples)],
+                                                                               samples=args.samples, exact=args.exact)],
                                            env=env, capture_output=True, text=True, check=True).stdout)
             rows[name] = dict(status_s=wall, status_cpu_s=cpu, warnings=len(status["warnings"]),
                               remaining=status["tanks"]["hz-1"]["remaining_kg"],
@@ -120,7 +149,16 @@ def main() -> None:
               f"{(r['pressure'] or 0) / 1e5:>8.2f}")
     b, c = rows["blowdown"], rows["constant"]
     print(f"ratios blowdown/constant: status {b['status_s'] / c['status_s']:.2f}x, snapshot "
-          f"{b['snapshot_s'] / c['snapshot_s']:.2f}x, Monte Carlo {b['mc_s'] / c['mc_s']:.2f}x")
+          f"{b['snapshot_s'] / c['snapshot_s']:.2f}x, Monte Carlo {b['mc_s'] / c['mc_s']:.2f}x wall, "
+          f"{b['mc_cpu_s'] / c['mc_cpu_s']:.2f}x CPU")
+    print(f"hz-1 remaining, 1 % low bound: constant {c['low_kg']:.3f} kg, blowdown {b['low_kg']:.3f} kg "
+          f"(blowdown: each sample's draws move its own feed pressure, core/mcblowdown.py)")
+    print(f"Monte Carlo peak traced memory (numpy arrays included): constant {c['mc_peak_mb']:.0f} MB, "
+          f"blowdown {b['mc_peak_mb']:.0f} MB")
+    if b["err"]:
+        e, d = np.array(b["err"]).T
+        print(f"blowdown linearisation against the exact replay of {len(e)} perturbed samples: worst "
+              f"{e.max() * 1000:.1f} g, mean {e.mean() * 1000:.1f} g, on deviations of {d.min():.2f}-{d.max():.2f} kg")
     print("targets: status <= 0.6 s warm; Monte Carlo of 10,000 samples <= 3 s and <= 1 GB")
 
 

@@ -38,6 +38,10 @@ moved by more than max(0.1 m/s, 1 % of the approved figure). 1 % is the default 
 (core.sigmas): a smaller move is inside what the figure could be known to anyway. Project choice."""
 
 
+TABLES_SAMPLER = "blowdown-feedback-1"
+"""Names the Monte Carlo of craft with performance tables (``core.mcblowdown``) in the confidence cache key."""
+
+
 MAX_SAMPLES = 1_000_000
 """Most samples one run takes: its arrays (craft draws, final states, capability per sample) stay within a few
 hundred megabytes, and 1e6 samples already put a 99.9 % bound's empirical quantile on 1,000 samples."""
@@ -66,8 +70,26 @@ def run(snap: Snapshot, samples: int = DEFAULT_SAMPLES, seed: int = DEFAULT_SEED
         progress: mc.Progress | None = None) -> mc.Samples:
     from ..core import montecarlo as mc  # noqa: PLC0415 - only when samples are drawn
 
+    view = snap.blowdown
+    if view is not None and view.flown is not None:  # performance tables: each sample's own feedback
+        return _run_tables(snap, samples, seed, progress)
     return mc.simulate(snap.flight_craft, snap.flight_events, samples=samples, seed=seed, progress=progress,
                        workers=WORKERS)
+
+
+def _run_tables(snap: Snapshot, samples: int, seed: int, progress) -> mc.Samples:
+    """``core.mcblowdown``: every sample's draws move its later feed pressures; its capability integrates
+    ve(m) over its own remaining propellant. The linearisation depends only on the snapshot, so it is
+    kept on the snapshot's blowdown view for the other runs (checks, approvals) on the same snapshot."""
+    from ..core import mcblowdown  # noqa: PLC0415
+
+    view = snap.blowdown
+    lin = view.__dict__.get("_mc_linear")
+    if lin is None:
+        lin = mcblowdown.linearise(snap.craft, view.model, view.events, snap.replay, view.flown)
+        view.__dict__["_mc_linear"] = lin  # a frozen dataclass: cached the way cached_property does
+    return mcblowdown.simulate(snap.craft, view.model, view.events, snap.replay, view.flown, view.temperature_k,
+                               samples, seed, progress, linear=lin)
 
 
 def commitments(snap: Snapshot, approved_only: bool = False, exclude: int | None = None) -> list[tuple[str, float]]:
@@ -221,6 +243,8 @@ def confidence_status(snapshot: Snapshot, confidence: float = DEFAULT_CONFIDENCE
         from .confcache import cached  # noqa: PLC0415
 
         key = {"head": list(snapshot.head), "confidence": confidence, "samples": samples, "seed": seed}
+        if snapshot.blowdown is not None and snapshot.blowdown.flown is not None:
+            key["sampler"] = TABLES_SAMPLER  # a result cached by the constant-performance stand-in is not reused
         return cached(side_path(snapshot.path), key, lambda: _confidence_status(snapshot, confidence, samples, seed, progress))
     return _confidence_status(snapshot, confidence, samples, seed, progress)
 

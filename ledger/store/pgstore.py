@@ -6,7 +6,9 @@ PGPASSWORD. The records and their SHA-256 chain are those of the file store (``c
 keeps the rules the file's lock keeps on one disk, and more (``pgschema``): append-only, each entry
 the next link of its chain, ``by`` the authenticated session user (a different ``--by`` is kept as
 ``on_behalf_of``). An append is one transaction under a per-craft advisory lock, acknowledged only
-once it has committed with ``synchronous_commit = on``.
+once it has committed with ``synchronous_commit = on``: outside ``locked()`` that is one round trip
+(``pgschema``'s ``append_entries``: lock, head check and insert in one autocommitted statement), linked
+on the head this process last saw and relinked on the head the server returns when another writer was first.
 """
 from __future__ import annotations
 
@@ -29,6 +31,8 @@ from .chain import GENESIS_PREV, Break, digest, verify_chain
 FILE_SCHEMA = 1
 """The record layout (the craft link's ``schema``): the same as the ledger file's (ledgerfile.SCHEMA)."""
 LOCK_TIMEOUT_S = 10.0
+RELINKS = 200
+"""How often an append relinks onto a head another writer moved, before it gives up."""
 CONNECT_TIMEOUT_S = 5
 
 
@@ -73,8 +77,13 @@ class PgStore:
         self._depth = 0
         self._guard = threading.RLock()
         self._listener: _Listener | None = None
-        self._last_read: tuple[Any, Any, bytes] | None = None
-        """(meta, records, the bytes they were parsed from) of the last read: the verified mark's key."""
+        self._last_read: _Read | None = None
+        """The last read (extended by this store's own appends): the verified mark's key, and reused by the
+        next read while the server's head is still its head."""
+        self._head_seen: tuple[int, str] | None = None
+        """The chain head as this process last saw it (read or appended), to link the next append on."""
+        self._layout_ok = False
+        """The layout version was checked on this connection."""
 
     # --- connection --------------------------------------------------------------------------
     def _connection(self) -> psycopg.Connection:
@@ -83,13 +92,46 @@ class PgStore:
             return conn
         try:
             conn = psycopg.connect(self.conninfo, autocommit=True, connect_timeout=CONNECT_TIMEOUT_S,
-                                   application_name="propledger")
-            conn.execute("SET synchronous_commit = on")
-            conn.execute(f"SET lock_timeout = '{int(self.lock_timeout * 1000)}ms'")
-            self.user = str(conn.execute("SELECT session_user").fetchone()[0])
+                                   application_name="propledger", options=self._options())
         except psycopg.Error as exc:
             raise StoreError(f"{self.path}: cannot reach the database ({_first_line(exc)}); nothing was changed") from None
-        self._conn = conn
+        self._conn, self.user, self._layout_ok = conn, None, False
+        return conn
+
+    def _options(self) -> str:
+        """The session settings, sent with the connection (no round trip of their own): synchronous commit
+        on whatever the server's default, and the lock timeout; after any ``options`` the address gives."""
+        from psycopg.conninfo import conninfo_to_dict  # noqa: PLC0415
+
+        given = str(conninfo_to_dict(self.conninfo).get("options") or "")
+        return f"{given} -c synchronous_commit=on -c lock_timeout={int(self.lock_timeout * 1000)}".strip()
+
+    def _session_user(self, conn: psycopg.Connection) -> str:
+        if self.user is None:
+            self.user = str(conn.execute("SELECT session_user").fetchone()[0])
+        return self.user
+
+    def _idle_connection(self) -> psycopg.Connection:
+        """The connection for a statement that must not be sent twice: when the server has spoken on an idle
+        connection (it does so before it closes one: shutdown, restart, idle timeout), probe it first, so
+        a connection that died while idle is replaced before anything is sent, as a BEGIN used to find out."""
+        conn = self._connection()
+        import select  # noqa: PLC0415
+
+        try:
+            readable = select.select([conn.fileno()], [], [], 0)[0]
+        except (OSError, ValueError, psycopg.Error):
+            readable = True
+        if readable:
+            try:
+                conn.execute("SELECT 1")
+            except psycopg.Error:
+                try:
+                    conn.close()
+                except psycopg.Error:
+                    pass
+                self._conn = None
+                conn = self._connection()
         return conn
 
     def close(self) -> None:
@@ -122,10 +164,7 @@ class PgStore:
             for attempt in (1, 2):
                 conn = self._connection()
                 try:
-                    if self._depth:
-                        return fn(conn)
-                    with conn.transaction():
-                        return fn(conn)
+                    return fn(conn)  # one statement is one snapshot: no transaction of its own
                 except psycopg.OperationalError as exc:
                     err = self._fail(exc, "nothing was changed")
                     if attempt == 2 or self._depth:
@@ -141,6 +180,7 @@ class PgStore:
         meta: dict[str, Any] = {"schema": FILE_SCHEMA, "program": f"propledger {__version__}", "created": created,
                                 "craft": dict(craft), "prev": GENESIS_PREV}
         with st._write("nothing was created") as conn:
+            st._session_user(conn)
             meta.update(st._names(by, default="unknown"))
             meta["hash"] = digest(meta, new=True)
             st._ensure_schema(conn)
@@ -167,7 +207,8 @@ class PgStore:
     def _ensure_schema(self, conn: psycopg.Connection) -> None:
         have = conn.execute("SELECT 1 FROM pg_namespace WHERE nspname = %s", [pgschema.SCHEMA_NAME]).fetchone()
         if have is None:
-            conn.execute(pgschema.CREATE)
+            conn.execute(pgschema.CREATE)  # layout 1, then every migration, as an older database gets them
+            self._check_version(conn, announce=False)
             self.notices.append(f"created the propledger tables (layout version {pgschema.VERSION}) in this database")
         else:
             self._check_version(conn)
@@ -181,9 +222,11 @@ class PgStore:
                      [self.craft, orjson.dumps(meta).decode(), meta["hash"], imported_through is not None,
                       imported_through or 0])
 
-    def _check_version(self, conn: psycopg.Connection) -> None:
-        row = conn.execute("SELECT max(version) FROM propledger.versions").fetchone()
-        version = row[0] if row else None
+    def _check_version(self, conn: psycopg.Connection, version: Any = False, announce: bool = True) -> None:
+        """Refuse a layout newer than this program's, migrate an older one (``version``: already read)."""
+        if version is False:
+            row = conn.execute("SELECT max(version) FROM propledger.versions").fetchone()
+            version = row[0] if row else None
         if version is None:
             raise StoreError(f"{self.path}: the propledger tables have no layout version; not using them")
         if version > pgschema.VERSION:
@@ -196,8 +239,10 @@ class PgStore:
             with conn.transaction():
                 conn.execute(step)
                 conn.execute("INSERT INTO propledger.versions (version) VALUES (%s)", [version + 1])
-            self.notices.append(f"database layout migrated from version {version} to {version + 1}")
+            if announce:
+                self.notices.append(f"database layout migrated from version {version} to {version + 1}")
             version += 1
+        self._layout_ok = True
 
     # --- reading -----------------------------------------------------------------------------
     def exists(self) -> bool:
@@ -207,25 +252,43 @@ class PgStore:
             and c.execute("SELECT 1 FROM propledger.crafts WHERE name = %s", [self.craft]).fetchone() is not None)
 
     def _meta(self, conn: psycopg.Connection) -> dict[str, Any]:
-        self._check_version(conn)
+        if not self._layout_ok:
+            self._check_version(conn)
         row = conn.execute("SELECT meta::text FROM propledger.crafts WHERE name = %s", [self.craft]).fetchone()
         if row is None:
             raise StoreError(f"{self.path}: no craft {self.craft!r} in this database; create it with "
                              "'propledger init --craft FILE'")
         return orjson.loads(row[0])
 
+    _READ = ("SELECT (SELECT max(version) FROM propledger.versions), c.meta::text, "
+             "(SELECT coalesce(json_agg(e.body ORDER BY e.seq), '[]')::text "
+             "FROM propledger.entries e WHERE e.craft = c.name) FROM propledger.crafts c WHERE c.name = %s")
+    _HEAD = ("SELECT (SELECT max(version) FROM propledger.versions), coalesce(e.seq, 0), coalesce(e.hash, c.hash) "
+             "FROM propledger.crafts c LEFT JOIN LATERAL (SELECT seq, hash FROM propledger.entries "
+             "WHERE craft = c.name ORDER BY seq DESC LIMIT 1) e ON true WHERE c.name = %s")
+
     def read(self) -> tuple[dict[str, Any], list[dict[str, Any]]]:
-        """The craft link and the entry records in sequence order (one query for the entries)."""
+        """The craft link and the entry records in sequence order: one statement (the layout version, the
+        craft link and every entry as one JSON array, decoded once). When this store read the craft before
+        and the server's head is still the head of what it read (and appended since), the records of that
+        read are returned again without fetching them (the entries are append-only in the server, and the
+        head hash pins every link before it)."""
         def go(conn):
-            self._check_version(conn)
-            row = conn.execute(
-                "SELECT c.meta::text, (SELECT coalesce(json_agg(e.body ORDER BY e.seq), '[]')::text "
-                "FROM propledger.entries e WHERE e.craft = c.name) FROM propledger.crafts c WHERE c.name = %s",
-                [self.craft]).fetchone()
-            if row is None:
-                self._meta(conn)  # the one error for a missing craft
-            meta, records = orjson.loads(row[0]), orjson.loads(row[1])
-            self._last_read = (meta, records, row[0].encode() + b"\n" + row[1].encode())
+            last = self._last_read
+            if last is not None:
+                head = self._head(conn)
+                if head == last.head:
+                    return last.meta, last.records
+            row = conn.execute(self._READ, [self.craft]).fetchone()
+            if row is None or row[0] != pgschema.VERSION or not self._layout_ok:
+                self._check_version(conn, row[0] if row is not None else False)
+                if row is None or row[0] != pgschema.VERSION:
+                    row = conn.execute(self._READ, [self.craft]).fetchone()
+                if row is None:
+                    self._meta(conn)  # the one error for a missing craft
+            meta, records = orjson.loads(row[1]), orjson.loads(row[2])
+            self._last_read = _Read(meta, records, (row[1], row[2]))
+            self._head_seen = self._last_read.head
             return meta, records
         return self._read(go)
 
@@ -236,17 +299,21 @@ class PgStore:
         return self.read()[1]
 
     def _head(self, conn: psycopg.Connection) -> tuple[int, str]:
-        row = conn.execute("SELECT seq, hash FROM propledger.entries WHERE craft = %s ORDER BY seq DESC LIMIT 1",
-                           [self.craft]).fetchone()
-        if row is not None:
-            return int(row[0]), str(row[1])
-        return 0, str(self._meta(conn)["hash"])
+        """(seq, hash) of the craft's last link, in one statement (the layout checked on the way)."""
+        row = conn.execute(self._HEAD, [self.craft]).fetchone()
+        if row is None or row[0] != pgschema.VERSION or not self._layout_ok:
+            self._check_version(conn, row[0] if row is not None else False)
+            if row is None:
+                self._meta(conn)  # the one error for a missing craft
+        self._head_seen = (int(row[1]), str(row[2]))
+        return self._head_seen
 
     def head(self) -> tuple[int, str]:
         return self._read(self._head)
 
     def verify(self) -> Break | None:
         """The full chain check, and that every stored row agrees with its record and its server-recorded user."""
+        self._last_read = None  # from the server, never from this process's memory
         meta, records = self.read()
         brk = verify_chain(meta, records)
         if brk is not None:
@@ -275,20 +342,31 @@ class PgStore:
         the server refuses edits, but a superuser's edit changes the bytes and brings the full check back.
         ``propledger verify`` always does the full check."""
         last = self._last_read
-        if last is None or last[0] is not meta or last[1] is not records:
+        if last is None or last.meta is not meta or last.records is not records:
             return verify_chain(meta, records)
+        if last.verified:  # checked in this process already (and extended only by links it made itself)
+            return None
+        if last.texts is None:
+            brk = verify_chain(meta, records)
+            last.verified = brk is None
+            return brk
         import hashlib  # noqa: PLC0415
 
         from . import verifiedmark  # noqa: PLC0415
         from .seam import side_path  # noqa: PLC0415
 
-        digest = hashlib.sha256(last[2]).hexdigest()
+        h = hashlib.sha256(last.texts[0].encode())
+        h.update(b"\n")
+        h.update(last.texts[1].encode())
+        digest = h.hexdigest()
         where = side_path(self.path)
         if verifiedmark.is_marked(where, digest):
+            last.verified = True
             return None
         brk = verify_chain(meta, records)
         if brk is None:
             verifiedmark.mark(where, digest)
+        last.verified = brk is None
         return brk
 
     def recorded_heads(self) -> list[Any]:
@@ -300,8 +378,26 @@ class PgStore:
 
     # --- locking and the one write path ------------------------------------------------------
     @contextmanager
+    def _errors(self, nothing: str) -> Iterator[None]:
+        """One line for whatever the database says during a write (``nothing``: what was not changed)."""
+        try:
+            yield
+        except psycopg.errors.LockNotAvailable:
+            raise StoreError(f"{self.path}: another propledger writer holds craft {self.craft!r}; gave up after "
+                             f"{self.lock_timeout:g} s; {nothing}") from None
+        except psycopg.errors.UniqueViolation:
+            raise StoreError(f"{self.path}: another writer appended to craft {self.craft!r} at the same moment; "
+                             f"{nothing}; try again") from None
+        except psycopg.OperationalError as exc:
+            raise self._fail(exc, f"{nothing} unless 'propledger log' shows it (the commit may not have "
+                                  "been acknowledged)") from None
+        except psycopg.Error as exc:
+            raise self._fail(exc, nothing) from None
+
+    @contextmanager
     def _write(self, nothing: str) -> Iterator[psycopg.Connection]:
-        """A write transaction holding the craft's advisory lock (re-entrant); committed when the block ends."""
+        """A write transaction holding the craft's advisory lock (re-entrant); committed when the block ends.
+        BEGIN and the lock go in one message (one round trip), the COMMIT in another."""
         with self._guard:
             if self._depth:
                 self._depth += 1
@@ -310,40 +406,49 @@ class PgStore:
                 finally:
                     self._depth -= 1
                 return
-            conn = self._connection()
             try:
-                try:
-                    tx = conn.transaction()
-                    tx.__enter__()
-                except psycopg.OperationalError:  # a connection that dropped while idle: nothing was sent
-                    self._conn = None
-                    conn = self._connection()
-                    tx = conn.transaction()
-                    tx.__enter__()
-                try:
-                    conn.execute("SELECT pg_advisory_xact_lock(hashtext(%s))", ["propledger " + self.craft])
-                    self._depth = 1
-                    yield conn
-                except BaseException as exc:
-                    self._depth = 0
-                    if not tx.__exit__(type(exc), exc, exc.__traceback__):
+                with self._errors(nothing):
+                    conn = self._idle_connection()
+                    try:
+                        conn.execute(self._begin_locked(), prepare=False)
+                    except BaseException:
+                        self._rollback(conn)
                         raise
-                else:
+                    self._depth = 1
+                    try:
+                        yield conn
+                    except BaseException:
+                        self._depth = 0
+                        self._rollback(conn)
+                        raise
                     self._depth = 0
-                    tx.__exit__(None, None, None)  # COMMIT: the write is acknowledged only after this returns
-            except psycopg.errors.LockNotAvailable:
-                raise StoreError(f"{self.path}: another propledger writer holds craft {self.craft!r}; gave up after "
-                                 f"{self.lock_timeout:g} s; {nothing}") from None
-            except psycopg.errors.UniqueViolation:
-                raise StoreError(f"{self.path}: another writer appended to craft {self.craft!r} at the same moment; "
-                                 f"{nothing}; try again") from None
-            except psycopg.OperationalError as exc:
-                raise self._fail(exc, f"{nothing} unless 'propledger log' shows it (the commit may not have "
-                                      "been acknowledged)") from None
-            except psycopg.Error as exc:
-                raise self._fail(exc, nothing) from None
+                    if conn.info.transaction_status != psycopg.pq.TransactionStatus.INTRANS:
+                        self._rollback(conn)
+                        raise StoreError(f"{self.path}: the write transaction failed; {nothing}")
+                    cur = conn.execute("COMMIT")  # the write is acknowledged only after this returns
+                    if cur.statusmessage != "COMMIT":
+                        raise StoreError(f"{self.path}: the server did not commit ({cur.statusmessage}); {nothing}")
             finally:
                 self._depth = 0
+
+    def _begin_locked(self):
+        from psycopg import sql  # noqa: PLC0415
+
+        return sql.SQL("BEGIN; SELECT pg_advisory_xact_lock(hashtext({}))").format(
+            sql.Literal("propledger " + self.craft))
+
+    def _rollback(self, conn: psycopg.Connection) -> None:
+        if conn.closed or conn.broken:
+            return
+        try:
+            if conn.info.transaction_status != psycopg.pq.TransactionStatus.IDLE:
+                conn.execute("ROLLBACK")
+        except psycopg.Error:
+            try:
+                conn.close()
+            except psycopg.Error:
+                pass
+            self._conn = None
 
     @contextmanager
     def locked(self) -> Iterator[None]:
@@ -354,8 +459,11 @@ class PgStore:
     def recorded_name(self, by: str | None) -> str:
         """The name a new entry will carry as ``by``: the session user, whatever ``--by`` says (the
         two-person rule compares this, so one role cannot approve twice under two typed names)."""
-        self._connection()
-        return str(self.user)
+        with self._guard:
+            try:
+                return self._session_user(self._connection())
+            except psycopg.Error as exc:
+                raise self._fail(exc, "nothing was changed") from None
 
     def _names(self, by: str | None, default: str | None = None) -> dict[str, str]:
         """``by`` is the session user; a different name the writer gave is kept as ``on_behalf_of``
@@ -373,11 +481,28 @@ class PgStore:
         return self.append_many([record])[0]
 
     def append_many(self, records: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
-        """Number, link and insert entries in one transaction (all or none); returned once committed."""
-        with self._write("nothing was recorded") as conn:
-            seq, prev = self._head(conn)
-            host, program = socket.gethostname(), f"propledger {__version__}"
-            stored_all = []
+        """Number, link and insert entries in one transaction (all or none); returned once committed.
+
+        Outside ``locked()`` this is one autocommitted call of ``append_entries`` (one round trip when this
+        store knows the head); inside, it joins the lock's transaction, committed when the block ends."""
+        records = list(records)
+        if not records:
+            return []
+        with self._guard:
+            if self._depth:
+                return self._append_on(self._conn, records)
+            with self._errors("nothing was recorded"):
+                return self._append_on(self._idle_connection(), records)
+
+    _APPEND = ("SELECT head_seq, head_hash FROM propledger.append_entries(%s, %s, %s, %s::text[], %s::json[])")
+
+    def _append_on(self, conn: psycopg.Connection, records: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
+        head = self._head_seen if self._head_seen is not None and self._layout_ok else self._head(conn)
+        self._session_user(conn)
+        host, program = socket.gethostname(), f"propledger {__version__}"
+        for _ in range(RELINKS):
+            seq, prev = head
+            stored_all, texts = [], []
             for record in records:
                 seq += 1
                 stored: dict[str, Any] = dict(record)
@@ -386,12 +511,28 @@ class PgStore:
                 stored.update(seq=seq, prev=prev, host=host, program=program)
                 stored["hash"] = prev = digest(stored, new=True)
                 stored_all.append(stored)
-            with conn.cursor() as cur:
-                cur.executemany("INSERT INTO propledger.entries (craft, seq, prev, hash, body) "
-                                "VALUES (%s, %s, %s, %s, %s::json)",
-                                [(self.craft, s["seq"], s["prev"], s["hash"], orjson.dumps(s).decode())
-                                 for s in stored_all])
-        return stored_all
+                texts.append(orjson.dumps(stored).decode())
+            row = conn.execute(self._APPEND, [self.craft, head[0] + 1, head[1], [s["hash"] for s in stored_all],
+                                              texts]).fetchone()
+            if row is None or row[0] is None:
+                self._meta(conn)  # the one error for a missing craft
+                raise StoreError(f"{self.path}: craft {self.craft!r} has no chain head; nothing was recorded")
+            got = (int(row[0]), str(row[1]))
+            if got == (seq, prev):  # ours: the server linked them on the head they name
+                self._linked(head, texts)
+                self._head_seen = got
+                return stored_all
+            head = got  # another writer was first: link onto the head the server returned
+        raise StoreError(f"{self.path}: craft {self.craft!r} kept moving under {RELINKS} attempts; nothing was "
+                         "recorded; try again")
+
+    def _linked(self, base: tuple[int, str], texts: list[str]) -> None:
+        """Extend the last read with the entries just linked on its head (as a fresh read would parse them)."""
+        last = self._last_read
+        if last is None or last.head != base:
+            self._last_read = None
+            return
+        self._last_read = _Read(last.meta, last.records + [orjson.loads(t) for t in texts], None, last.verified)
 
     # --- live --------------------------------------------------------------------------------
     def change_key(self) -> tuple[int, bool]:
@@ -409,6 +550,22 @@ class PgStore:
             return None
         return (f"disconnected from the database since {time.strftime('%H:%M:%S', time.gmtime(lst.down_since))} "
                 f"UTC ({lst.reason}); reconnecting: entries shown may be out of date")
+
+
+class _Read:
+    """One read of a craft: the parsed link and records, the texts they came from (the verified mark's key;
+    None once this store's own appends extended the records) and whether they were verified here."""
+
+    __slots__ = ("meta", "records", "texts", "verified")
+
+    def __init__(self, meta: dict[str, Any], records: list[dict[str, Any]], texts: tuple[str, str] | None,
+                 verified: bool = False):
+        self.meta, self.records, self.texts, self.verified = meta, records, texts, verified
+
+    @property
+    def head(self) -> tuple[int, str]:
+        last = self.records[-1] if self.records else self.meta
+        return int(last.get("seq", 0)), str(last.get("hash", ""))
 
 
 class _Listener(threading.Thread):

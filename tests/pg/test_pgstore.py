@@ -25,7 +25,8 @@ def run(capsys, *argv: str) -> tuple[int, str, str]:
 
 
 def test_init_creates_versioned_schema_and_craft(pg_schema, craft_url):
-    assert pg_schema.psql("SELECT max(version) FROM propledger.versions").strip() == "1"
+    # layout 1 as it first shipped, then the migration to 2 (set-wise chain check, one-round-trip append)
+    assert pg_schema.psql("SELECT string_agg(version::text, ',' ORDER BY version) FROM propledger.versions").strip() == "1,2"
     meta = PgStore(craft_url).meta()
     assert meta["by"] == "alice" and meta["prev"] == "0" * 64
 
@@ -153,7 +154,7 @@ def test_newer_layout_is_refused_and_missing_rights_are_one_line(capsys, pg_sche
     assert code == 2 and "permission denied" in err and err.count("\n") == 1  # no grants in this database
     pg_schema.psql("INSERT INTO propledger.versions (version) VALUES (99)", db="later", user="pl_owner")
     code, _, err = run(capsys, "--ledger", owner, "status")
-    assert code == 2 and "layout is version 99, newer than this propledger reads (1)" in err
+    assert code == 2 and "layout is version 99, newer than this propledger reads (2)" in err
 
 
 def test_init_without_create_rights_is_one_line(capsys, pg_schema):

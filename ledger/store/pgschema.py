@@ -160,7 +160,7 @@ BEGIN
         WHEN n.prev IS DISTINCT FROM CASE WHEN n.seq = 1 THEN c.hash ELSE p.hash END THEN 'prev'
         ELSE 'by' END AS why
     INTO bad
-    FROM (SELECT a.*, a.body::jsonb AS b FROM added a) n
+    FROM (SELECT a.*, a.body::jsonb AS b FROM added a OFFSET 0) n  -- OFFSET 0: each body parsed once
     LEFT JOIN propledger.crafts c ON c.name = n.craft
     LEFT JOIN propledger.entries p ON p.craft = n.craft AND p.seq = n.seq - 1 AND n.seq > 1
     WHERE n.db_user <> session_user OR n.committed_at <> now()

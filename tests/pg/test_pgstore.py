@@ -142,6 +142,8 @@ def test_handover_on_a_database_craft(capsys, craft_url):
     assert run(capsys, "--ledger", craft_url, "mass", "--delta", "-1 kg")[0] == 0
     code, _, err = run(capsys, "--ledger", craft_url, "handover", "--from", "R. Okafor", "--to", "J. Ito")
     assert code == 0 and "recorded handover entry 2" in err
+    # no file backup is written for a database ledger, and it does not say "none" as if backups were missing
+    assert "backup: the database server's (not checked by propledger)" in err and "backup: none" not in err
     last = PgStore(craft_url).records()[-1]
     assert last["kind"] == "handover" and last["by"] == "alice" and last["on_behalf_of"] == "R. Okafor"
 

@@ -21,12 +21,24 @@ from typing import Any, Iterator, Mapping, Sequence
 from urllib.parse import parse_qsl, urlencode, urlsplit, urlunsplit
 
 import orjson
-import psycopg
 
 from .. import __version__
 from ..errors import InputError, StoreError
 from . import pgschema
 from .chain import GENESIS_PREV, Break, digest, verify_chain
+
+class _LazyPsycopg:
+    """psycopg, imported on first use: a command that only reads goes through libpq directly (``pgread``)
+    and never pays psycopg's import (about 0.3 s of CPU)."""
+
+    def __getattr__(self, name: str) -> Any:
+        import psycopg as real  # noqa: PLC0415
+
+        globals()["psycopg"] = real
+        return getattr(real, name)
+
+
+psycopg: Any = _LazyPsycopg()
 
 FILE_SCHEMA = 1
 """The record layout (the craft link's ``schema``): the same as the ledger file's (ledgerfile.SCHEMA)."""
@@ -84,6 +96,8 @@ class PgStore:
         """The chain head as this process last saw it (read or appended), to link the next append on."""
         self._layout_ok = False
         """The layout version was checked on this connection."""
+        self._direct: Any = None
+        """A libpq connection for reads before psycopg is needed (``pgread``)."""
 
     # --- connection --------------------------------------------------------------------------
     def _connection(self) -> psycopg.Connection:
@@ -96,7 +110,34 @@ class PgStore:
         except psycopg.Error as exc:
             raise StoreError(f"{self.path}: cannot reach the database ({_first_line(exc)}); nothing was changed") from None
         self._conn, self.user, self._layout_ok = conn, None, False
+        self._close_direct()
         return conn
+
+    def _close_direct(self) -> None:
+        if self._direct is not None:
+            self._direct.close()
+            self._direct = None
+
+    def _query_direct(self, sql: str, params: Sequence[str]) -> list[tuple[bytes | None, ...]] | None:
+        """Rows of one read statement through libpq itself, before psycopg is needed (None: use psycopg)."""
+        from . import pgread  # noqa: PLC0415
+
+        try:
+            if self._direct is None:
+                self._direct = pgread.connect(self.conninfo, CONNECT_TIMEOUT_S)
+                if self._direct is None:
+                    return None
+            return self._direct.query(sql.replace("%s", "$1"), params)  # one parameter, libpq's spelling
+        except pgread.ReadError as exc:
+            self._close_direct()
+            first = _first_line(exc)
+            if exc.connecting:
+                raise StoreError(f"{self.path}: cannot reach the database ({first}); nothing was changed") from None
+            if exc.sqlstate in ("42P01", "3F000"):  # undefined table, invalid schema name
+                raise self._fail_text("tables", first, "nothing was changed") from None
+            if exc.sqlstate is None or exc.sqlstate.startswith("08"):
+                raise self._fail_text("lost", first, "nothing was changed") from None
+            raise self._fail_text("refused", first, "nothing was changed") from None
 
     def _options(self) -> str:
         """The session settings, sent with the connection (no round trip of their own): synchronous commit
@@ -135,6 +176,7 @@ class PgStore:
         return conn
 
     def close(self) -> None:
+        self._close_direct()
         if self._listener is not None:
             self._listener.stop()
         if self._conn is not None:
@@ -150,13 +192,18 @@ class PgStore:
                 pass
             self._conn = None
         if isinstance(exc, psycopg.errors.UndefinedTable) or isinstance(exc, psycopg.errors.InvalidSchemaName):
+            return self._fail_text("tables", _first_line(exc), doing)
+        if isinstance(exc, psycopg.OperationalError):
+            return self._fail_text("lost", _first_line(exc), doing)
+        return self._fail_text("refused", _first_line(exc), doing)
+
+    def _fail_text(self, kind: str, first: str, doing: str) -> StoreError:
+        if kind == "tables":
             return StoreError(f"{self.path}: no propledger tables in this database; create them and the craft "
                               "with 'propledger init --craft FILE'")
-        if isinstance(exc, psycopg.errors.InsufficientPrivilege):
-            return StoreError(f"{self.path}: the database refused ({_first_line(exc)}); {doing}")
-        if isinstance(exc, psycopg.OperationalError):
-            return StoreError(f"{self.path}: database connection lost ({_first_line(exc)}); {doing}")
-        return StoreError(f"{self.path}: the database refused ({_first_line(exc)}); {doing}")
+        if kind == "lost":
+            return StoreError(f"{self.path}: database connection lost ({first}); {doing}")
+        return StoreError(f"{self.path}: the database refused ({first}); {doing}")
 
     def _read(self, fn):
         """Run a read (retried once on a fresh connection if the old one had dropped)."""
@@ -273,6 +320,16 @@ class PgStore:
         and the server's head is still the head of what it read (and appended since), the records of that
         read are returned again without fetching them (the entries are append-only in the server, and the
         head hash pins every link before it)."""
+        with self._guard:
+            if self._conn is None and not self._depth and self._last_read is None:
+                rows = self._query_direct(self._READ, [self.craft])
+                if rows is not None and rows and rows[0][0] == str(pgschema.VERSION).encode():
+                    meta, records = orjson.loads(rows[0][1]), orjson.loads(rows[0][2])
+                    self._last_read = _Read(meta, records, (rows[0][1], rows[0][2]))
+                    self._head_seen = self._last_read.head
+                    return meta, records
+                self._close_direct()  # no craft, another layout or no libpq: psycopg says which, or migrates
+
         def go(conn):
             last = self._last_read
             if last is not None:
@@ -309,7 +366,13 @@ class PgStore:
         return self._head_seen
 
     def head(self) -> tuple[int, str]:
-        return self._read(self._head)
+        with self._guard:
+            if self._conn is None and not self._depth:
+                rows = self._query_direct(self._HEAD, [self.craft])
+                if rows is not None and rows and rows[0][0] == str(pgschema.VERSION).encode():
+                    self._head_seen = (int(rows[0][1]), rows[0][2].decode())
+                    return self._head_seen
+            return self._read(self._head)
 
     def verify(self) -> Break | None:
         """The full chain check, and that every stored row agrees with its record and its server-recorded user."""
@@ -320,14 +383,15 @@ class PgStore:
             return brk
 
         def rows(conn):
-            return conn.execute(
-                "SELECT e.seq, e.body->>'by', e.db_user, (e.body->>'hash') IS DISTINCT FROM e.hash "
-                "OR (e.body->>'prev') IS DISTINCT FROM e.prev OR (e.body->>'seq') IS DISTINCT FROM e.seq::text "
-                "FROM propledger.entries e JOIN propledger.crafts c ON c.name = e.craft WHERE e.craft = %s AND "
-                "((e.seq > c.imported_through AND (e.body->>'by') IS DISTINCT FROM e.db_user::text) "
-                "OR (e.body->>'hash') IS DISTINCT FROM e.hash OR (e.body->>'prev') IS DISTINCT FROM e.prev "
-                "OR (e.body->>'seq') IS DISTINCT FROM e.seq::text) ORDER BY e.seq LIMIT 1", [self.craft]).fetchone()
-        bad = self._read(rows)
+            return conn.execute(self._ROWS, [self.craft]).fetchone()
+        bad = None
+        direct = self._query_direct(self._ROWS, [self.craft]) if self._conn is None else None
+        if direct is not None:
+            if direct:
+                seq, by, db_user, columns = direct[0]
+                bad = (int(seq), by.decode() if by is not None else None, db_user.decode(), columns == b"t")
+        else:
+            bad = self._read(rows)
         if bad is None:
             return None
         seq, by, db_user, columns = bad
@@ -335,6 +399,13 @@ class PgStore:
             return Break(int(seq), "the row's seq, prev or hash columns differ from its record (edited in the database)")
         return Break(int(seq), f"recorded by {by!r} but the database user who inserted it was {db_user!r} "
                                "(edited in the database)")
+
+    _ROWS = ("SELECT e.seq, e.body->>'by', e.db_user, (e.body->>'hash') IS DISTINCT FROM e.hash "
+             "OR (e.body->>'prev') IS DISTINCT FROM e.prev OR (e.body->>'seq') IS DISTINCT FROM e.seq::text "
+                "FROM propledger.entries e JOIN propledger.crafts c ON c.name = e.craft WHERE e.craft = %s AND "
+                "((e.seq > c.imported_through AND (e.body->>'by') IS DISTINCT FROM e.db_user::text) "
+                "OR (e.body->>'hash') IS DISTINCT FROM e.hash OR (e.body->>'prev') IS DISTINCT FROM e.prev "
+                "OR (e.body->>'seq') IS DISTINCT FROM e.seq::text) ORDER BY e.seq LIMIT 1")
 
     def verify_cached(self, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]]) -> Break | None:
         """The chain check, skipped when exactly these bytes (by SHA-256) verified before, under a mark sealed
@@ -355,9 +426,9 @@ class PgStore:
         from . import verifiedmark  # noqa: PLC0415
         from .seam import side_path  # noqa: PLC0415
 
-        h = hashlib.sha256(last.texts[0].encode())
+        h = hashlib.sha256(_bytes(last.texts[0]))
         h.update(b"\n")
-        h.update(last.texts[1].encode())
+        h.update(_bytes(last.texts[1]))
         digest = h.hexdigest()
         where = side_path(self.path)
         if verifiedmark.is_marked(where, digest):
@@ -552,13 +623,17 @@ class PgStore:
                 f"UTC ({lst.reason}); reconnecting: entries shown may be out of date")
 
 
+def _bytes(text: str | bytes) -> bytes:
+    return text if isinstance(text, bytes) else text.encode()
+
+
 class _Read:
     """One read of a craft: the parsed link and records, the texts they came from (the verified mark's key;
     None once this store's own appends extended the records) and whether they were verified here."""
 
     __slots__ = ("meta", "records", "texts", "verified")
 
-    def __init__(self, meta: dict[str, Any], records: list[dict[str, Any]], texts: tuple[str, str] | None,
+    def __init__(self, meta: dict[str, Any], records: list[dict[str, Any]], texts: tuple[Any, Any] | None,
                  verified: bool = False):
         self.meta, self.records, self.texts, self.verified = meta, records, texts, verified
 

@@ -80,7 +80,7 @@ def cmd_handover(args) -> int:
     done = f"handover recorded as entry {rec['entry']}, but " if rec.get("recorded") else ""
     emit(text, out, args.force, f"{done}writing the report failed")
     if rec.get("recorded"):  # plain print: a path must stay whole on one line
-        print(f"recorded handover entry {rec['entry']}; backup: {plain(rec.get('backup') or 'none')}", file=sys.stderr)
+        print(f"recorded handover entry {rec['entry']}; backup: {plain(handover.backup_text(rec, led.path))}", file=sys.stderr)
     if out is not None:
         print(f"wrote {plain(out)}", file=sys.stderr)
     warn(report["warnings"])

@@ -173,6 +173,19 @@ def _backup(path: str) -> dict[str, Any]:
         return {"backup": None, "failed": True, "warning": f"BACKUP FAILED after recording the handover: {exc}"}
 
 
+SERVER_BACKUP = "the database server's (not checked by propledger)"
+
+
+def backup_text(rec: dict[str, Any], path: str) -> str:
+    """What a recorded handover's ``backup:`` line says: the backup file written, or, for a database
+    ledger, that its backups are the server's (propledger writes none and cannot see them)."""
+    from ..store.seam import is_url  # noqa: PLC0415
+
+    if rec.get("backup"):
+        return str(rec["backup"])
+    return SERVER_BACKUP if is_url(path) and not rec.get("backup_failed") else "none"
+
+
 def record(ledger: Ledger, report: dict[str, Any], *, note: str | None = None) -> dict[str, Any]:
     """Append the handover entry, then back the ledger up; the report gains a ``record`` section."""
     win = report["window"]

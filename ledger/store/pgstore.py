@@ -6,7 +6,9 @@ PGPASSWORD. The records and their SHA-256 chain are those of the file store (``c
 keeps the rules the file's lock keeps on one disk, and more (``pgschema``): append-only, each entry
 the next link of its chain, ``by`` the authenticated session user (a different ``--by`` is kept as
 ``on_behalf_of``). An append is one transaction under a per-craft advisory lock, acknowledged only
-once it has committed with ``synchronous_commit = on``.
+once it has committed with ``synchronous_commit = on``: outside ``locked()`` that is one round trip
+(``pgschema``'s ``append_entries``: lock, head check and insert in one autocommitted statement), linked
+on the head this process last saw and relinked on the head the server returns when another writer was first.
 """
 from __future__ import annotations
 
@@ -19,16 +21,30 @@ from typing import Any, Iterator, Mapping, Sequence
 from urllib.parse import parse_qsl, urlencode, urlsplit, urlunsplit
 
 import orjson
-import psycopg
 
 from .. import __version__
 from ..errors import InputError, StoreError
 from . import pgschema
 from .chain import GENESIS_PREV, Break, digest, verify_chain
 
+class _LazyPsycopg:
+    """psycopg, imported on first use: a command that only reads goes through libpq directly (``pgread``)
+    and never pays psycopg's import (about 0.3 s of CPU)."""
+
+    def __getattr__(self, name: str) -> Any:
+        import psycopg as real  # noqa: PLC0415
+
+        globals()["psycopg"] = real
+        return getattr(real, name)
+
+
+psycopg: Any = _LazyPsycopg()
+
 FILE_SCHEMA = 1
 """The record layout (the craft link's ``schema``): the same as the ledger file's (ledgerfile.SCHEMA)."""
 LOCK_TIMEOUT_S = 10.0
+RELINKS = 200
+"""How often an append relinks onto a head another writer moved, before it gives up."""
 CONNECT_TIMEOUT_S = 5
 
 
@@ -73,8 +89,15 @@ class PgStore:
         self._depth = 0
         self._guard = threading.RLock()
         self._listener: _Listener | None = None
-        self._last_read: tuple[Any, Any, bytes] | None = None
-        """(meta, records, the bytes they were parsed from) of the last read: the verified mark's key."""
+        self._last_read: _Read | None = None
+        """The last read (extended by this store's own appends): the verified mark's key, and reused by the
+        next read while the server's head is still its head."""
+        self._head_seen: tuple[int, str] | None = None
+        """The chain head as this process last saw it (read or appended), to link the next append on."""
+        self._layout_ok = False
+        """The layout version was checked on this connection."""
+        self._direct: Any = None
+        """A libpq connection for reads before psycopg is needed (``pgread``)."""
 
     # --- connection --------------------------------------------------------------------------
     def _connection(self) -> psycopg.Connection:
@@ -83,16 +106,77 @@ class PgStore:
             return conn
         try:
             conn = psycopg.connect(self.conninfo, autocommit=True, connect_timeout=CONNECT_TIMEOUT_S,
-                                   application_name="propledger")
-            conn.execute("SET synchronous_commit = on")
-            conn.execute(f"SET lock_timeout = '{int(self.lock_timeout * 1000)}ms'")
-            self.user = str(conn.execute("SELECT session_user").fetchone()[0])
+                                   application_name="propledger", options=self._options())
         except psycopg.Error as exc:
             raise StoreError(f"{self.path}: cannot reach the database ({_first_line(exc)}); nothing was changed") from None
-        self._conn = conn
+        self._conn, self.user, self._layout_ok = conn, None, False
+        self._close_direct()
+        return conn
+
+    def _close_direct(self) -> None:
+        if self._direct is not None:
+            self._direct.close()
+            self._direct = None
+
+    def _query_direct(self, sql: str, params: Sequence[str]) -> list[tuple[bytes | None, ...]] | None:
+        """Rows of one read statement through libpq itself, before psycopg is needed (None: use psycopg)."""
+        from . import pgread  # noqa: PLC0415
+
+        try:
+            if self._direct is None:
+                self._direct = pgread.connect(self.conninfo, CONNECT_TIMEOUT_S)
+                if self._direct is None:
+                    return None
+            return self._direct.query(sql.replace("%s", "$1"), params)  # one parameter, libpq's spelling
+        except pgread.ReadError as exc:
+            self._close_direct()
+            first = _first_line(exc)
+            if exc.connecting:
+                raise StoreError(f"{self.path}: cannot reach the database ({first}); nothing was changed") from None
+            if exc.sqlstate in ("42P01", "3F000"):  # undefined table, invalid schema name
+                raise self._fail_text("tables", first, "nothing was changed") from None
+            if exc.sqlstate is None or exc.sqlstate.startswith("08"):
+                raise self._fail_text("lost", first, "nothing was changed") from None
+            raise self._fail_text("refused", first, "nothing was changed") from None
+
+    def _options(self) -> str:
+        """The session settings, sent with the connection (no round trip of their own): synchronous commit
+        on whatever the server's default, and the lock timeout; after any ``options`` the address gives."""
+        from psycopg.conninfo import conninfo_to_dict  # noqa: PLC0415
+
+        given = str(conninfo_to_dict(self.conninfo).get("options") or "")
+        return f"{given} -c synchronous_commit=on -c lock_timeout={int(self.lock_timeout * 1000)}".strip()
+
+    def _session_user(self, conn: psycopg.Connection) -> str:
+        if self.user is None:
+            self.user = str(conn.execute("SELECT session_user").fetchone()[0])
+        return self.user
+
+    def _idle_connection(self) -> psycopg.Connection:
+        """The connection for a statement that must not be sent twice: when the server has spoken on an idle
+        connection (it does so before it closes one: shutdown, restart, idle timeout), probe it first, so
+        a connection that died while idle is replaced before anything is sent, as a BEGIN used to find out."""
+        conn = self._connection()
+        import select  # noqa: PLC0415
+
+        try:
+            readable = select.select([conn.fileno()], [], [], 0)[0]
+        except (OSError, ValueError, psycopg.Error):
+            readable = True
+        if readable:
+            try:
+                conn.execute("SELECT 1")
+            except psycopg.Error:
+                try:
+                    conn.close()
+                except psycopg.Error:
+                    pass
+                self._conn = None
+                conn = self._connection()
         return conn
 
     def close(self) -> None:
+        self._close_direct()
         if self._listener is not None:
             self._listener.stop()
         if self._conn is not None:
@@ -108,13 +192,18 @@ class PgStore:
                 pass
             self._conn = None
         if isinstance(exc, psycopg.errors.UndefinedTable) or isinstance(exc, psycopg.errors.InvalidSchemaName):
+            return self._fail_text("tables", _first_line(exc), doing)
+        if isinstance(exc, psycopg.OperationalError):
+            return self._fail_text("lost", _first_line(exc), doing)
+        return self._fail_text("refused", _first_line(exc), doing)
+
+    def _fail_text(self, kind: str, first: str, doing: str) -> StoreError:
+        if kind == "tables":
             return StoreError(f"{self.path}: no propledger tables in this database; create them and the craft "
                               "with 'propledger init --craft FILE'")
-        if isinstance(exc, psycopg.errors.InsufficientPrivilege):
-            return StoreError(f"{self.path}: the database refused ({_first_line(exc)}); {doing}")
-        if isinstance(exc, psycopg.OperationalError):
-            return StoreError(f"{self.path}: database connection lost ({_first_line(exc)}); {doing}")
-        return StoreError(f"{self.path}: the database refused ({_first_line(exc)}); {doing}")
+        if kind == "lost":
+            return StoreError(f"{self.path}: database connection lost ({first}); {doing}")
+        return StoreError(f"{self.path}: the database refused ({first}); {doing}")
 
     def _read(self, fn):
         """Run a read (retried once on a fresh connection if the old one had dropped)."""
@@ -122,10 +211,7 @@ class PgStore:
             for attempt in (1, 2):
                 conn = self._connection()
                 try:
-                    if self._depth:
-                        return fn(conn)
-                    with conn.transaction():
-                        return fn(conn)
+                    return fn(conn)  # one statement is one snapshot: no transaction of its own
                 except psycopg.OperationalError as exc:
                     err = self._fail(exc, "nothing was changed")
                     if attempt == 2 or self._depth:
@@ -141,6 +227,7 @@ class PgStore:
         meta: dict[str, Any] = {"schema": FILE_SCHEMA, "program": f"propledger {__version__}", "created": created,
                                 "craft": dict(craft), "prev": GENESIS_PREV}
         with st._write("nothing was created") as conn:
+            st._session_user(conn)
             meta.update(st._names(by, default="unknown"))
             meta["hash"] = digest(meta, new=True)
             st._ensure_schema(conn)
@@ -167,7 +254,8 @@ class PgStore:
     def _ensure_schema(self, conn: psycopg.Connection) -> None:
         have = conn.execute("SELECT 1 FROM pg_namespace WHERE nspname = %s", [pgschema.SCHEMA_NAME]).fetchone()
         if have is None:
-            conn.execute(pgschema.CREATE)
+            conn.execute(pgschema.CREATE)  # layout 1, then every migration, as an older database gets them
+            self._check_version(conn, announce=False)
             self.notices.append(f"created the propledger tables (layout version {pgschema.VERSION}) in this database")
         else:
             self._check_version(conn)
@@ -181,9 +269,11 @@ class PgStore:
                      [self.craft, orjson.dumps(meta).decode(), meta["hash"], imported_through is not None,
                       imported_through or 0])
 
-    def _check_version(self, conn: psycopg.Connection) -> None:
-        row = conn.execute("SELECT max(version) FROM propledger.versions").fetchone()
-        version = row[0] if row else None
+    def _check_version(self, conn: psycopg.Connection, version: Any = False, announce: bool = True) -> None:
+        """Refuse a layout newer than this program's, migrate an older one (``version``: already read)."""
+        if version is False:
+            row = conn.execute("SELECT max(version) FROM propledger.versions").fetchone()
+            version = row[0] if row else None
         if version is None:
             raise StoreError(f"{self.path}: the propledger tables have no layout version; not using them")
         if version > pgschema.VERSION:
@@ -196,8 +286,10 @@ class PgStore:
             with conn.transaction():
                 conn.execute(step)
                 conn.execute("INSERT INTO propledger.versions (version) VALUES (%s)", [version + 1])
-            self.notices.append(f"database layout migrated from version {version} to {version + 1}")
+            if announce:
+                self.notices.append(f"database layout migrated from version {version} to {version + 1}")
             version += 1
+        self._layout_ok = True
 
     # --- reading -----------------------------------------------------------------------------
     def exists(self) -> bool:
@@ -207,25 +299,53 @@ class PgStore:
             and c.execute("SELECT 1 FROM propledger.crafts WHERE name = %s", [self.craft]).fetchone() is not None)
 
     def _meta(self, conn: psycopg.Connection) -> dict[str, Any]:
-        self._check_version(conn)
+        if not self._layout_ok:
+            self._check_version(conn)
         row = conn.execute("SELECT meta::text FROM propledger.crafts WHERE name = %s", [self.craft]).fetchone()
         if row is None:
             raise StoreError(f"{self.path}: no craft {self.craft!r} in this database; create it with "
                              "'propledger init --craft FILE'")
         return orjson.loads(row[0])
 
+    _READ = ("SELECT (SELECT max(version) FROM propledger.versions), c.meta::text, "
+             "(SELECT coalesce(json_agg(e.body ORDER BY e.seq), '[]')::text "
+             "FROM propledger.entries e WHERE e.craft = c.name) FROM propledger.crafts c WHERE c.name = %s")
+    _HEAD = ("SELECT (SELECT max(version) FROM propledger.versions), coalesce(e.seq, 0), coalesce(e.hash, c.hash) "
+             "FROM propledger.crafts c LEFT JOIN LATERAL (SELECT seq, hash FROM propledger.entries "
+             "WHERE craft = c.name ORDER BY seq DESC LIMIT 1) e ON true WHERE c.name = %s")
+
     def read(self) -> tuple[dict[str, Any], list[dict[str, Any]]]:
-        """The craft link and the entry records in sequence order (one query for the entries)."""
+        """The craft link and the entry records in sequence order: one statement (the layout version, the
+        craft link and every entry as one JSON array, decoded once). When this store read the craft before
+        and the server's head is still the head of what it read (and appended since), the records of that
+        read are returned again without fetching them (the entries are append-only in the server, and the
+        head hash pins every link before it)."""
+        with self._guard:
+            if self._conn is None and not self._depth and self._last_read is None:
+                rows = self._query_direct(self._READ, [self.craft])
+                if rows is not None and rows and rows[0][0] == str(pgschema.VERSION).encode():
+                    meta, records = orjson.loads(rows[0][1]), orjson.loads(rows[0][2])
+                    self._last_read = _Read(meta, records, (rows[0][1], rows[0][2]))
+                    self._head_seen = self._last_read.head
+                    return meta, records
+                self._close_direct()  # no craft, another layout or no libpq: psycopg says which, or migrates
+
         def go(conn):
-            self._check_version(conn)
-            row = conn.execute(
-                "SELECT c.meta::text, (SELECT coalesce(json_agg(e.body ORDER BY e.seq), '[]')::text "
-                "FROM propledger.entries e WHERE e.craft = c.name) FROM propledger.crafts c WHERE c.name = %s",
-                [self.craft]).fetchone()
-            if row is None:
-                self._meta(conn)  # the one error for a missing craft
-            meta, records = orjson.loads(row[0]), orjson.loads(row[1])
-            self._last_read = (meta, records, row[0].encode() + b"\n" + row[1].encode())
+            last = self._last_read
+            if last is not None:
+                head = self._head(conn)
+                if head == last.head:
+                    return last.meta, last.records
+            row = conn.execute(self._READ, [self.craft]).fetchone()
+            if row is None or row[0] != pgschema.VERSION or not self._layout_ok:
+                self._check_version(conn, row[0] if row is not None else False)
+                if row is None or row[0] != pgschema.VERSION:
+                    row = conn.execute(self._READ, [self.craft]).fetchone()
+                if row is None:
+                    self._meta(conn)  # the one error for a missing craft
+            meta, records = orjson.loads(row[1]), orjson.loads(row[2])
+            self._last_read = _Read(meta, records, (row[1], row[2]))
+            self._head_seen = self._last_read.head
             return meta, records
         return self._read(go)
 
@@ -236,31 +356,42 @@ class PgStore:
         return self.read()[1]
 
     def _head(self, conn: psycopg.Connection) -> tuple[int, str]:
-        row = conn.execute("SELECT seq, hash FROM propledger.entries WHERE craft = %s ORDER BY seq DESC LIMIT 1",
-                           [self.craft]).fetchone()
-        if row is not None:
-            return int(row[0]), str(row[1])
-        return 0, str(self._meta(conn)["hash"])
+        """(seq, hash) of the craft's last link, in one statement (the layout checked on the way)."""
+        row = conn.execute(self._HEAD, [self.craft]).fetchone()
+        if row is None or row[0] != pgschema.VERSION or not self._layout_ok:
+            self._check_version(conn, row[0] if row is not None else False)
+            if row is None:
+                self._meta(conn)  # the one error for a missing craft
+        self._head_seen = (int(row[1]), str(row[2]))
+        return self._head_seen
 
     def head(self) -> tuple[int, str]:
-        return self._read(self._head)
+        with self._guard:
+            if self._conn is None and not self._depth:
+                rows = self._query_direct(self._HEAD, [self.craft])
+                if rows is not None and rows and rows[0][0] == str(pgschema.VERSION).encode():
+                    self._head_seen = (int(rows[0][1]), rows[0][2].decode())
+                    return self._head_seen
+            return self._read(self._head)
 
     def verify(self) -> Break | None:
         """The full chain check, and that every stored row agrees with its record and its server-recorded user."""
+        self._last_read = None  # from the server, never from this process's memory
         meta, records = self.read()
         brk = verify_chain(meta, records)
         if brk is not None:
             return brk
 
         def rows(conn):
-            return conn.execute(
-                "SELECT e.seq, e.body->>'by', e.db_user, (e.body->>'hash') IS DISTINCT FROM e.hash "
-                "OR (e.body->>'prev') IS DISTINCT FROM e.prev OR (e.body->>'seq') IS DISTINCT FROM e.seq::text "
-                "FROM propledger.entries e JOIN propledger.crafts c ON c.name = e.craft WHERE e.craft = %s AND "
-                "((e.seq > c.imported_through AND (e.body->>'by') IS DISTINCT FROM e.db_user::text) "
-                "OR (e.body->>'hash') IS DISTINCT FROM e.hash OR (e.body->>'prev') IS DISTINCT FROM e.prev "
-                "OR (e.body->>'seq') IS DISTINCT FROM e.seq::text) ORDER BY e.seq LIMIT 1", [self.craft]).fetchone()
-        bad = self._read(rows)
+            return conn.execute(self._ROWS, [self.craft]).fetchone()
+        bad = None
+        direct = self._query_direct(self._ROWS, [self.craft]) if self._conn is None else None
+        if direct is not None:
+            if direct:
+                seq, by, db_user, columns = direct[0]
+                bad = (int(seq), by.decode() if by is not None else None, db_user.decode(), columns == b"t")
+        else:
+            bad = self._read(rows)
         if bad is None:
             return None
         seq, by, db_user, columns = bad
@@ -269,26 +400,44 @@ class PgStore:
         return Break(int(seq), f"recorded by {by!r} but the database user who inserted it was {db_user!r} "
                                "(edited in the database)")
 
+    _ROWS = ("SELECT e.seq, e.body->>'by', e.db_user, (e.body->>'hash') IS DISTINCT FROM e.hash "
+             "OR (e.body->>'prev') IS DISTINCT FROM e.prev OR (e.body->>'seq') IS DISTINCT FROM e.seq::text "
+                "FROM propledger.entries e JOIN propledger.crafts c ON c.name = e.craft WHERE e.craft = %s AND "
+                "((e.seq > c.imported_through AND (e.body->>'by') IS DISTINCT FROM e.db_user::text) "
+                "OR (e.body->>'hash') IS DISTINCT FROM e.hash OR (e.body->>'prev') IS DISTINCT FROM e.prev "
+                "OR (e.body->>'seq') IS DISTINCT FROM e.seq::text) ORDER BY e.seq LIMIT 1")
+
     def verify_cached(self, meta: Mapping[str, Any], records: Sequence[Mapping[str, Any]]) -> Break | None:
         """The chain check, skipped when exactly these bytes (by SHA-256) verified before, under a mark sealed
         with a key in the user's cache folder (``seam.side_path``, ``verifiedmark``), as for a ledger file:
         the server refuses edits, but a superuser's edit changes the bytes and brings the full check back.
         ``propledger verify`` always does the full check."""
         last = self._last_read
-        if last is None or last[0] is not meta or last[1] is not records:
+        if last is None or last.meta is not meta or last.records is not records:
             return verify_chain(meta, records)
+        if last.verified:  # checked in this process already (and extended only by links it made itself)
+            return None
+        if last.texts is None:
+            brk = verify_chain(meta, records)
+            last.verified = brk is None
+            return brk
         import hashlib  # noqa: PLC0415
 
         from . import verifiedmark  # noqa: PLC0415
         from .seam import side_path  # noqa: PLC0415
 
-        digest = hashlib.sha256(last[2]).hexdigest()
+        h = hashlib.sha256(_bytes(last.texts[0]))
+        h.update(b"\n")
+        h.update(_bytes(last.texts[1]))
+        digest = h.hexdigest()
         where = side_path(self.path)
         if verifiedmark.is_marked(where, digest):
+            last.verified = True
             return None
         brk = verify_chain(meta, records)
         if brk is None:
             verifiedmark.mark(where, digest)
+        last.verified = brk is None
         return brk
 
     def recorded_heads(self) -> list[Any]:
@@ -300,8 +449,26 @@ class PgStore:
 
     # --- locking and the one write path ------------------------------------------------------
     @contextmanager
+    def _errors(self, nothing: str) -> Iterator[None]:
+        """One line for whatever the database says during a write (``nothing``: what was not changed)."""
+        try:
+            yield
+        except psycopg.errors.LockNotAvailable:
+            raise StoreError(f"{self.path}: another propledger writer holds craft {self.craft!r}; gave up after "
+                             f"{self.lock_timeout:g} s; {nothing}") from None
+        except psycopg.errors.UniqueViolation:
+            raise StoreError(f"{self.path}: another writer appended to craft {self.craft!r} at the same moment; "
+                             f"{nothing}; try again") from None
+        except psycopg.OperationalError as exc:
+            raise self._fail(exc, f"{nothing} unless 'propledger log' shows it (the commit may not have "
+                                  "been acknowledged)") from None
+        except psycopg.Error as exc:
+            raise self._fail(exc, nothing) from None
+
+    @contextmanager
     def _write(self, nothing: str) -> Iterator[psycopg.Connection]:
-        """A write transaction holding the craft's advisory lock (re-entrant); committed when the block ends."""
+        """A write transaction holding the craft's advisory lock (re-entrant); committed when the block ends.
+        BEGIN and the lock go in one message (one round trip), the COMMIT in another."""
         with self._guard:
             if self._depth:
                 self._depth += 1
@@ -310,40 +477,49 @@ class PgStore:
                 finally:
                     self._depth -= 1
                 return
-            conn = self._connection()
             try:
-                try:
-                    tx = conn.transaction()
-                    tx.__enter__()
-                except psycopg.OperationalError:  # a connection that dropped while idle: nothing was sent
-                    self._conn = None
-                    conn = self._connection()
-                    tx = conn.transaction()
-                    tx.__enter__()
-                try:
-                    conn.execute("SELECT pg_advisory_xact_lock(hashtext(%s))", ["propledger " + self.craft])
-                    self._depth = 1
-                    yield conn
-                except BaseException as exc:
-                    self._depth = 0
-                    if not tx.__exit__(type(exc), exc, exc.__traceback__):
+                with self._errors(nothing):
+                    conn = self._idle_connection()
+                    try:
+                        conn.execute(self._begin_locked(), prepare=False)
+                    except BaseException:
+                        self._rollback(conn)
                         raise
-                else:
+                    self._depth = 1
+                    try:
+                        yield conn
+                    except BaseException:
+                        self._depth = 0
+                        self._rollback(conn)
+                        raise
                     self._depth = 0
-                    tx.__exit__(None, None, None)  # COMMIT: the write is acknowledged only after this returns
-            except psycopg.errors.LockNotAvailable:
-                raise StoreError(f"{self.path}: another propledger writer holds craft {self.craft!r}; gave up after "
-                                 f"{self.lock_timeout:g} s; {nothing}") from None
-            except psycopg.errors.UniqueViolation:
-                raise StoreError(f"{self.path}: another writer appended to craft {self.craft!r} at the same moment; "
-                                 f"{nothing}; try again") from None
-            except psycopg.OperationalError as exc:
-                raise self._fail(exc, f"{nothing} unless 'propledger log' shows it (the commit may not have "
-                                      "been acknowledged)") from None
-            except psycopg.Error as exc:
-                raise self._fail(exc, nothing) from None
+                    if conn.info.transaction_status != psycopg.pq.TransactionStatus.INTRANS:
+                        self._rollback(conn)
+                        raise StoreError(f"{self.path}: the write transaction failed; {nothing}")
+                    cur = conn.execute("COMMIT")  # the write is acknowledged only after this returns
+                    if cur.statusmessage != "COMMIT":
+                        raise StoreError(f"{self.path}: the server did not commit ({cur.statusmessage}); {nothing}")
             finally:
                 self._depth = 0
+
+    def _begin_locked(self):
+        from psycopg import sql  # noqa: PLC0415
+
+        return sql.SQL("BEGIN; SELECT pg_advisory_xact_lock(hashtext({}))").format(
+            sql.Literal("propledger " + self.craft))
+
+    def _rollback(self, conn: psycopg.Connection) -> None:
+        if conn.closed or conn.broken:
+            return
+        try:
+            if conn.info.transaction_status != psycopg.pq.TransactionStatus.IDLE:
+                conn.execute("ROLLBACK")
+        except psycopg.Error:
+            try:
+                conn.close()
+            except psycopg.Error:
+                pass
+            self._conn = None
 
     @contextmanager
     def locked(self) -> Iterator[None]:
@@ -354,8 +530,11 @@ class PgStore:
     def recorded_name(self, by: str | None) -> str:
         """The name a new entry will carry as ``by``: the session user, whatever ``--by`` says (the
         two-person rule compares this, so one role cannot approve twice under two typed names)."""
-        self._connection()
-        return str(self.user)
+        with self._guard:
+            try:
+                return self._session_user(self._connection())
+            except psycopg.Error as exc:
+                raise self._fail(exc, "nothing was changed") from None
 
     def _names(self, by: str | None, default: str | None = None) -> dict[str, str]:
         """``by`` is the session user; a different name the writer gave is kept as ``on_behalf_of``
@@ -373,11 +552,28 @@ class PgStore:
         return self.append_many([record])[0]
 
     def append_many(self, records: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
-        """Number, link and insert entries in one transaction (all or none); returned once committed."""
-        with self._write("nothing was recorded") as conn:
-            seq, prev = self._head(conn)
-            host, program = socket.gethostname(), f"propledger {__version__}"
-            stored_all = []
+        """Number, link and insert entries in one transaction (all or none); returned once committed.
+
+        Outside ``locked()`` this is one autocommitted call of ``append_entries`` (one round trip when this
+        store knows the head); inside, it joins the lock's transaction, committed when the block ends."""
+        records = list(records)
+        if not records:
+            return []
+        with self._guard:
+            if self._depth:
+                return self._append_on(self._conn, records)
+            with self._errors("nothing was recorded"):
+                return self._append_on(self._idle_connection(), records)
+
+    _APPEND = ("SELECT head_seq, head_hash FROM propledger.append_entries(%s, %s, %s, %s::text[], %s::json[])")
+
+    def _append_on(self, conn: psycopg.Connection, records: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
+        head = self._head_seen if self._head_seen is not None and self._layout_ok else self._head(conn)
+        self._session_user(conn)
+        host, program = socket.gethostname(), f"propledger {__version__}"
+        for _ in range(RELINKS):
+            seq, prev = head
+            stored_all, texts = [], []
             for record in records:
                 seq += 1
                 stored: dict[str, Any] = dict(record)
@@ -386,12 +582,28 @@ class PgStore:
                 stored.update(seq=seq, prev=prev, host=host, program=program)
                 stored["hash"] = prev = digest(stored, new=True)
                 stored_all.append(stored)
-            with conn.cursor() as cur:
-                cur.executemany("INSERT INTO propledger.entries (craft, seq, prev, hash, body) "
-                                "VALUES (%s, %s, %s, %s, %s::json)",
-                                [(self.craft, s["seq"], s["prev"], s["hash"], orjson.dumps(s).decode())
-                                 for s in stored_all])
-        return stored_all
+                texts.append(orjson.dumps(stored).decode())
+            row = conn.execute(self._APPEND, [self.craft, head[0] + 1, head[1], [s["hash"] for s in stored_all],
+                                              texts]).fetchone()
+            if row is None or row[0] is None:
+                self._meta(conn)  # the one error for a missing craft
+                raise StoreError(f"{self.path}: craft {self.craft!r} has no chain head; nothing was recorded")
+            got = (int(row[0]), str(row[1]))
+            if got == (seq, prev):  # ours: the server linked them on the head they name
+                self._linked(head, texts)
+                self._head_seen = got
+                return stored_all
+            head = got  # another writer was first: link onto the head the server returned
+        raise StoreError(f"{self.path}: craft {self.craft!r} kept moving under {RELINKS} attempts; nothing was "
+                         "recorded; try again")
+
+    def _linked(self, base: tuple[int, str], texts: list[str]) -> None:
+        """Extend the last read with the entries just linked on its head (as a fresh read would parse them)."""
+        last = self._last_read
+        if last is None or last.head != base:
+            self._last_read = None
+            return
+        self._last_read = _Read(last.meta, last.records + [orjson.loads(t) for t in texts], None, last.verified)
 
     # --- live --------------------------------------------------------------------------------
     def change_key(self) -> tuple[int, bool]:
@@ -409,6 +621,26 @@ class PgStore:
             return None
         return (f"disconnected from the database since {time.strftime('%H:%M:%S', time.gmtime(lst.down_since))} "
                 f"UTC ({lst.reason}); reconnecting: entries shown may be out of date")
+
+
+def _bytes(text: str | bytes) -> bytes:
+    return text if isinstance(text, bytes) else text.encode()
+
+
+class _Read:
+    """One read of a craft: the parsed link and records, the texts they came from (the verified mark's key;
+    None once this store's own appends extended the records) and whether they were verified here."""
+
+    __slots__ = ("meta", "records", "texts", "verified")
+
+    def __init__(self, meta: dict[str, Any], records: list[dict[str, Any]], texts: tuple[Any, Any] | None,
+                 verified: bool = False):
+        self.meta, self.records, self.texts, self.verified = meta, records, texts, verified
+
+    @property
+    def head(self) -> tuple[int, str]:
+        last = self.records[-1] if self.records else self.meta
+        return int(last.get("seq", 0)), str(last.get("hash", ""))
 
 
 class _Listener(threading.Thread):

@@ -25,7 +25,8 @@ def run(capsys, *argv: str) -> tuple[int, str, str]:
 
 
 def test_init_creates_versioned_schema_and_craft(pg_schema, craft_url):
-    assert pg_schema.psql("SELECT max(version) FROM propledger.versions").strip() == "1"
+    # layout 1 as it first shipped, then the migration to 2 (set-wise chain check, one-round-trip append)
+    assert pg_schema.psql("SELECT string_agg(version::text, ',' ORDER BY version) FROM propledger.versions").strip() == "1,2"
     meta = PgStore(craft_url).meta()
     assert meta["by"] == "alice" and meta["prev"] == "0" * 64
 
@@ -141,6 +142,8 @@ def test_handover_on_a_database_craft(capsys, craft_url):
     assert run(capsys, "--ledger", craft_url, "mass", "--delta", "-1 kg")[0] == 0
     code, _, err = run(capsys, "--ledger", craft_url, "handover", "--from", "R. Okafor", "--to", "J. Ito")
     assert code == 0 and "recorded handover entry 2" in err
+    # no file backup is written for a database ledger, and it does not say "none" as if backups were missing
+    assert "backup: the database server's (not checked by propledger)" in err and "backup: none" not in err
     last = PgStore(craft_url).records()[-1]
     assert last["kind"] == "handover" and last["by"] == "alice" and last["on_behalf_of"] == "R. Okafor"
 
@@ -153,7 +156,7 @@ def test_newer_layout_is_refused_and_missing_rights_are_one_line(capsys, pg_sche
     assert code == 2 and "permission denied" in err and err.count("\n") == 1  # no grants in this database
     pg_schema.psql("INSERT INTO propledger.versions (version) VALUES (99)", db="later", user="pl_owner")
     code, _, err = run(capsys, "--ledger", owner, "status")
-    assert code == 2 and "layout is version 99, newer than this propledger reads (1)" in err
+    assert code == 2 and "layout is version 99, newer than this propledger reads (2)" in err
 
 
 def test_init_without_create_rights_is_one_line(capsys, pg_schema):

@@ -23,6 +23,8 @@ def record(note: str) -> dict:
 
 
 def kill_cycles(url: str, cycles: int, seed: int) -> int:
+    import psycopg  # noqa: F401,PLC0415 - imported before the forks (the store imports it only to write)
+
     from ledger.store.pgstore import PgStore  # noqa: PLC0415
 
     rnd = random.Random(seed)

@@ -154,7 +154,8 @@ class HandoverScreen(WorkMixin, Screen):
         self.report = report
         rec = report["record"]
         self.show_report()
-        self.message(f"recorded handover entry #{rec['entry']}; backup: {rec.get('backup') or 'none'}",
+        backup = handover.backup_text(rec, self.app.live.path)
+        self.message(f"recorded handover entry #{rec['entry']}; backup: {backup}",
                      error=bool(rec.get("backup_failed")))
         warnings = [w for w in report["warnings"] if w.startswith("BACKUP FAILED")]
         self.app.recorded(rec["entry"], "handover", warnings)

@@ -234,3 +234,22 @@ def flyer(model: bd.Model, temps):
 
     fly.dv_free = free
     return fly
+
+
+def event_performance(model: bd.Model, flown: bd.Flown, is_burn: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per event, the Isp (s) and thrust (N) a table engine's draw was flown at, NaN for other events: the
+    table at the mean of the firing's start and end feed pressures, and for a burn whose delta-v was
+    integrated its effective Isp (the delta-v over ln(m0/m1), ``Flown.ve_event``). For the bookkeeping
+    sigma (``core.booksigma``): an engine's Isp sigma is a larger share of a draw at low pressure."""
+    n = len(flown.engine)
+    isp, thrust = np.full(n, np.nan), np.full(n, np.nan)
+    is_burn = np.asarray(is_burn, dtype=bool)
+    for e in model.perf:
+        sel = (flown.engine == e) & np.isfinite(flown.pressure_start) & np.isfinite(flown.pressure_end)
+        if not sel.any():
+            continue
+        th, ip = model.performance(e, 0.5 * (flown.pressure_start[sel] + flown.pressure_end[sel]))
+        isp[sel], thrust[sel] = ip, th
+        whole = sel & flown.dependent & is_burn
+        isp[whole] = flown.ve_event[whole] / (bd.G0 * model.cos[e])
+    return isp, thrust

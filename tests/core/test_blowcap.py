@@ -148,3 +148,40 @@ def test_check_after_figure_is_additive_for_one_engine():
     free_now, _, _ = bc.dv_free(m, st, T, 0)
     res = cap.check(c, st, "mono", 30.0, commitments=[("mono", 12.0)], fly_fn=bc.flyer(m, T))
     assert res.feasible and res.dv_free_after_m_s == pytest.approx(free_now - 42.0, rel=1e-6)
+
+
+def test_bookkeeping_sigma_takes_each_draws_isp_and_thrust():
+    # Hand computation of the model stated in core.booksigma, written out: a given Isp sigma of 3 s is
+    # 3/Isp of each draw at the Isp it flew at (a burn's effective Isp dv/(g0·ln(m0/m1)); a timed use's table
+    # Isp and thrust at its mean feed pressure), summed per engine (a shared bias), plus each entry's own
+    # default share (core.sigmas) independently, plus the load sigma (core.sigmas default share of the load).
+    from ledger.core.booksigma import bookkeeping_sigma
+    from ledger.core.entries import Entry
+    from ledger.core.replay import steps_from_events
+    from ledger.core.sigmas import CRAFT_DEFAULTS, ENTRY_DEFAULTS
+
+    c = make_craft()
+    c = replace(c, engines=(replace(c.engines[0], isp_sigma_s=3.0), c.engines[1]))
+    m = bd.Model(c)
+    ev = [Entry(1, "burn", 0.0, 0.0, "x", "", {"engine": "mono", "dv": 60.0}),
+          Entry(2, "use", 1.0, 0.0, "x", "", {"engine": "mono", "duration": 20000.0}),
+          Entry(3, "burn", 2.0, 0.0, "x", "", {"engine": "mono", "dv": 40.0})]
+    temps = bd.event_temperatures(c, [e.at for e in ev], [])
+    rep, flown = bd.replay_blowdown(c, m, ev, temps)
+    steps = steps_from_events(c, ev)
+    isp, thrust = bc.event_performance(m, flown, steps.is_burn)
+    got = float(bookkeeping_sigma(c, ev, steps, rep, isp_at=isp, thrust_at=thrust)[0])
+
+    d = rep.drawn[:, 0]
+    isp_burn = [e.data["dv"] / (G0 * np.log(rep.mass_before[k] / rep.mass_after[k])) for k, e in enumerate(ev)
+                if e.kind == "burn"]
+    p_mid = 0.5 * (flown.pressure_start[1] + flown.pressure_end[1])
+    isp_use = np.interp(p_mid, TABLE.pressure_pa, TABLE.isp_s)
+    bias_isp = 3.0 / isp_burn[0] * d[0] + 3.0 / isp_use * d[1] + 3.0 / isp_burn[1] * d[2]
+    bias_thrust = CRAFT_DEFAULTS["thrust"].relative * d[1]  # no thrust sigma given: the default share
+    own = ((ENTRY_DEFAULTS["dv"].relative * d[0]) ** 2 + (ENTRY_DEFAULTS["duration"].relative * d[1]) ** 2
+           + (ENTRY_DEFAULTS["dv"].relative * d[2]) ** 2)
+    load = CRAFT_DEFAULTS["load"].relative * 57.0
+    want = np.sqrt(load ** 2 + bias_isp ** 2 + bias_thrust ** 2 + own)
+    assert isp_burn[1] < isp_burn[0] < 231.5  # the later burn flew at a lower Isp
+    assert got == pytest.approx(want, rel=1e-9)

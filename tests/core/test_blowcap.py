@@ -185,3 +185,24 @@ def test_bookkeeping_sigma_takes_each_draws_isp_and_thrust():
     want = np.sqrt(load ** 2 + bias_isp ** 2 + bias_thrust ** 2 + own)
     assert isp_burn[1] < isp_burn[0] < 231.5  # the later burn flew at a lower Isp
     assert got == pytest.approx(want, rel=1e-9)
+
+
+def test_flat_tables_with_reserves_on_two_engines_equal_the_closed_form():
+    # Two tanks fed 2:1 by a flat-table engine, a constant engine on one of them, reserves on both: with no
+    # Isp change the search must land on the closed form of core.capability (itself checked against a
+    # numerical search in tests/core/test_capability_properties.py) and the rocket equation behind it.
+    a = Tank("a", "hydrazine", 40.0, 1.0, 0.06, Pressurant("helium", 22e5, 293.15))
+    b = Tank("b", "hydrazine", 30.0, 0.5, 0.05, Pressurant("helium", 20e5, 293.15))
+    a, b = (replace(t, gas_table=realgas.gas_table(t)) for t in (a, b))
+    flat = Engine("mono", 220.0, 1.0, {"a": 2.0, "b": 1.0}, performance=FLAT)
+    big = Engine("big", 300.0, 20.0, {"b": 1.0})
+    c = Craft("t", 150.0, (a, b), (flat, big), reserves=(Reserve("r1", "mono", 15.0), Reserve("r2", "big", 20.0)))
+    m = bd.Model(c)
+    temps = np.array([293.15, 293.15])
+    for rem in ([40.0, 30.0], [25.0, 9.0], [12.0, 20.0]):
+        st = cap.State(150.0 + sum(rem), np.array(rem))
+        for e in (0, 1):
+            want, lim_want, met_want = cap.dv_free(c, st, e)
+            got, lim, met = bc.dv_free(m, st, temps, e)
+            assert (met, lim) == (met_want, lim_want)
+            assert got == pytest.approx(want, rel=1e-7, abs=1e-7)

@@ -48,11 +48,15 @@ def flow_error_rel(craft: Craft) -> np.ndarray:
 
 
 def bookkeeping_sigma(craft: Craft, events: Sequence[Entry], steps: Steps, rep: Replay,
-                      upto: int | None = None) -> np.ndarray:
+                      upto: int | None = None, isp_at: np.ndarray | None = None,
+                      thrust_at: np.ndarray | None = None) -> np.ndarray:
     """Sigma (kg) of each tank's bookkeeping remaining after the first ``upto`` events (default all).
 
     ``steps`` and ``rep`` are the replay of ``events``; re-baseline entries carry their adopted
-    ``sigma_kg``.
+    ``sigma_kg``. ``isp_at`` / ``thrust_at`` (per event, NaN where the engine's nominal applies) give the
+    Isp and thrust a table engine's draw was flown at (``core.blowcap.event_performance``): a sigma the
+    craft file gives in seconds or newtons is then a larger share of a low-pressure draw; a default sigma
+    stays its relative share.
     """
     n = len(events) if upto is None else int(upto)
     sig0 = load_sigmas(craft)
@@ -68,6 +72,10 @@ def bookkeeping_sigma(craft: Craft, events: Sequence[Entry], steps: Steps, rep: 
                            for i, e in enumerate(craft.engines)], dtype=float)
     var = sig0 ** 2
     n_e = len(craft.engines)
+    # a sigma the craft file gives in seconds or newtons stays absolute at a table's lower values; a default
+    # stays the default share of whatever the table gives (0 here: the relative figure above applies)
+    at_isp = [e.isp_sigma_s or 0.0 for e in craft.engines]
+    at_thrust = [e.thrust_sigma_n or 0.0 for e in craft.engines]
     for t in range(len(craft.tanks)):
         # As the sampler draws it: a burn quoted in delta-v or duration carries its engine's Isp bias (and a
         # duration the thrust bias: flow = F / (Isp g0)); one quoted in propellant carries neither. Shared
@@ -75,6 +83,8 @@ def bookkeeping_sigma(craft: Craft, events: Sequence[Entry], steps: Steps, rep: 
         # error (entry --sigma, else core.sigmas' default share), independent between burns.
         by_isp = np.zeros(n_e)
         by_thrust = np.zeros(n_e)
+        kg_isp = np.zeros(n_e)  # kg of bias from draws flown at a table's Isp and thrust (already weighted)
+        kg_thrust = np.zeros(n_e)
         own = 0.0
         for i in range(start[t], n):
             e = int(steps.engine[i])
@@ -83,11 +93,18 @@ def bookkeeping_sigma(craft: Craft, events: Sequence[Entry], steps: Steps, rep: 
             drawn = float(rep.drawn[i, t])
             data = events[i].data
             field = next((f for f in AMOUNT_FIELDS if data.get(f) is not None), None)
+            at_table = isp_at is not None and isp_at[i] == isp_at[i]
             if field in ("dv", "duration"):
-                by_isp[e] += drawn
+                if at_table:
+                    kg_isp[e] += at_isp[e] / float(isp_at[i]) * drawn if at_isp[e] else isp_rel[e] * drawn
+                else:
+                    by_isp[e] += drawn
             if field == "duration":
-                by_thrust[e] += drawn
+                if at_table and thrust_at is not None and thrust_at[i] == thrust_at[i] and thrust_at[i] > 0:
+                    kg_thrust[e] += (at_thrust[e] / float(thrust_at[i]) if at_thrust[e] else thrust_rel[e]) * drawn
+                else:
+                    by_thrust[e] += drawn
             if field is not None and float(data[field]):
                 own += (entry_sigma(data, field) / abs(float(data[field])) * drawn) ** 2
-        var[t] += float(np.sum((isp_rel * by_isp) ** 2) + np.sum((thrust_rel * by_thrust) ** 2)) + own
+        var[t] += float(np.sum((isp_rel * by_isp + kg_isp) ** 2) + np.sum((thrust_rel * by_thrust + kg_thrust) ** 2)) + own
     return np.sqrt(var)

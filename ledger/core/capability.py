@@ -205,11 +205,14 @@ class CheckResult:
 
 
 def check(craft: Craft, state: State, engine_id: str, dv: float,
-          commitments: Sequence[tuple[str, float]] = (), fly_fn=None) -> CheckResult:
+          commitments: Sequence[tuple[str, float]] = (), fly_fn=None, free_fn=None) -> CheckResult:
     """Fly the commitments, then the proposed burn, then the reserves; feasible if no tank goes short.
 
     ``fly_fn(state, burns)`` replaces the constant-ve ``fly`` (``core.blowdown.flyer``: each burn's
-    exhaust velocity following the feed pressure over its draw)."""
+    exhaust velocity following the feed pressure over its draw); ``free_fn(state, engine index)`` the
+    closed-form ``dv_free`` after the burn (default: the ``dv_free`` attribute a fly_fn may carry,
+    ``core.blowcap.flyer``: the falling Isp integrated)."""
+    free_fn = free_fn or getattr(fly_fn, "dv_free", None) or (lambda st, e: dv_free(craft, st, e))
     fly_fn = fly_fn or (lambda st, burns: fly(craft, st, burns))
     after_plans, _ = fly_fn(state, commitments)
     after_burn, draws = fly_fn(after_plans, [(engine_id, dv)])
@@ -230,7 +233,7 @@ def check(craft: Craft, state: State, engine_id: str, dv: float,
     else:
         reason = f"reserves intact; least margin after reserves in tank {ids[worst]}: {margin[worst]:.3f} kg"
     e = craft.engine_index(engine_id)
-    free_after, _, _ = dv_free(craft, after_burn, e) if not short_burn.any() else (0.0, None, False)
+    free_after, _, _ = free_fn(after_burn, e) if not short_burn.any() else (0.0, None, False)
     draw = draws[0]
     return CheckResult(
         engine=engine_id, dv_m_s=dv, feasible=feasible, propellant_kg=float(draw.sum()),

@@ -175,12 +175,19 @@ def select(ix: LogIndex, kinds: Sequence[str] | None = None, text: str = "") -> 
 
 def tanks(snap: Snapshot) -> list[dict[str, Any]]:
     """Per tank: load, remaining, residual, usable, and the part of usable the reserves would draw if
-    flown now (reserve share; the rest is free), all in kg."""
+    flown now (reserve share; the rest is free), all in kg. With performance tables the reserves are flown
+    last instead, at the lowest pressures (``core.blowcap.reserve_held``)."""
     from .views import blowdown_keys  # noqa: PLC0415 - views builds on this module
 
     craft = snap.craft
     usable = snap.usable_kg
-    held = cap.reserve_draw_per_kg(snap.flight_craft) * max(snap.state.mass_kg, 0.0)
+    view = snap.blowdown
+    if view is not None and view.flown is not None:  # performance tables: the reserves flown last, integrated
+        from ..core.blowcap import reserve_held  # noqa: PLC0415
+
+        held = reserve_held(view.model, snap.state, view.temperature_k)
+    else:
+        held = cap.reserve_draw_per_kg(snap.flight_craft) * max(snap.state.mass_kg, 0.0)
     out = []
     for i, t in enumerate(craft.tanks):
         reserve = float(min(max(held[i], 0.0), usable[i]))

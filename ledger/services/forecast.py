@@ -81,7 +81,10 @@ def _series(snap: Snapshot, engine: str, life: fc.Lifetime, low: fc.Lifetime | N
     if events:
         idx = fc.sample_indices(len(events), points)
         hist_t = [events[0].at] + [events[int(i)].at for i in idx]
-        hist_dv = [fc.dv_free_initial(craft, e)] + [float(x) for x in fc.dv_free_history(craft, snap.replay, e, idx)]
+        if snap.blowdown is not None and snap.blowdown.flown is not None:
+            hist_dv = _table_history(snap, e, idx)
+        else:
+            hist_dv = [fc.dv_free_initial(craft, e)] + [float(x) for x in fc.dv_free_history(craft, snap.replay, e, idx)]
     end = life.runs_out if life.runs_out is not None else life.start + 10 * fc.YEAR_S
     out = {"history_t": hist_t, "history_dv": hist_dv,
            "projection_t": [life.start, end],
@@ -93,3 +96,20 @@ def _series(snap: Snapshot, engine: str, life: fc.Lifetime, low: fc.Lifetime | N
         out["low_dv"] = [low.dv_free_m_s, max(0.0, low.dv_free_m_s - low.dv_per_year_m_s * (low_end - low.start)
                                               / fc.YEAR_S)]
     return out
+
+
+def _table_history(snap: Snapshot, e: int, idx) -> list[float]:
+    """Dv free as loaded and after the chosen events, the falling Isp integrated (``core.blowcap``), each
+    state at its own event's tank temperatures: one vectorised search over all the states."""
+    import numpy as np  # noqa: PLC0415
+
+    from ..core import blowcap  # noqa: PLC0415
+    from ..core import blowdown as bd  # noqa: PLC0415
+
+    view, craft, rep = snap.blowdown, snap.craft, snap.replay
+    idx = np.asarray(idx, dtype=int)
+    loading = bd.event_temperatures(craft, np.array([-np.inf]), ())[0]  # no reading yet: loading temperatures
+    mass = np.concatenate(([craft.initial_mass_kg], rep.mass_after[idx]))
+    remaining = np.vstack([craft.loads()[None, :], rep.remaining[idx]])
+    temps = np.vstack([np.asarray(loading, dtype=float)[None, :], view.flown.temperatures[idx]])
+    return [float(x) for x in blowcap.dv_free_states(view.model, mass, remaining, temps, e)]

@@ -113,6 +113,15 @@ def bookkeeping_at(snap: Snapshot, tank_id: str, at: float) -> tuple[float, floa
     k = int(np.searchsorted(ats, at, side="right"))
     t = snap.craft.tank_index(tank_id)
     value = float(snap.replay.remaining[k - 1, t]) if k else float(snap.craft.tanks[t].load_kg)
+    view = snap.blowdown
+    if view is not None and view.flown is not None:  # performance tables: each draw at its own Isp and thrust
+        from ..core.blowcap import event_performance  # noqa: PLC0415
+
+        steps = steps_from_events(snap.craft, events)
+        isp, thrust = event_performance(view.model, view.flown, steps.is_burn)
+        sigma = float(bookkeeping_sigma(snap.craft, events, steps, snap.replay, upto=k, isp_at=isp,
+                                        thrust_at=thrust)[t])
+        return value, sigma, k
     flight = snap.flight_events
     steps = steps_from_events(snap.flight_craft, flight)
     sigma = float(bookkeeping_sigma(snap.flight_craft, flight, steps, snap.replay, upto=k)[t])

@@ -121,7 +121,12 @@ def assemble(path: str, craft: Craft, meta: Mapping[str, Any], records: Sequence
 
     rep, view = blowdown.flight(craft, resolved, rep, replay)
     state = cap.State(rep.mass_kg, rep.remaining_kg)
-    engines = tuple(cap.capability(view.craft_eq if view is not None else craft, state))
+    if view is not None and view.flown is not None:  # performance tables: dv free integrates the falling Isp
+        from ..core import blowcap  # noqa: PLC0415
+
+        engines = tuple(blowcap.capability(view.model, view.craft_eq, state, view.temperature_k))
+    else:
+        engines = tuple(cap.capability(view.craft_eq if view is not None else craft, state))
     warnings = _warnings(craft, resolved.events, rep, state, engines, integrity)
     if view is not None:
         warnings += list(view.warnings)

@@ -45,6 +45,17 @@ def trend(snap: Snapshot, max_points: int = MAX_POINTS) -> Trend:
     remaining = np.vstack([craft.loads()[None, :], rep.remaining[idx]]) if n else craft.loads()[None, :]
     mass = np.concatenate(([craft.initial_mass_kg], rep.mass_after[idx]))
     dv = {e.id: np.empty(len(t)) for e in craft.engines}
+    view = snap.blowdown
+    if view is not None and view.flown is not None:  # performance tables: the falling Isp integrated
+        from ..core import blowcap  # noqa: PLC0415
+        from ..core import blowdown as bd  # noqa: PLC0415
+
+        loading = bd.event_temperatures(craft, np.array([-np.inf]), ())[0]
+        temps = np.vstack([loading[None, :], view.flown.temperatures[idx]]) if n else loading[None, :]
+        for j, e in enumerate(craft.engines):
+            dv[e.id] = blowcap.dv_free_states(view.model, mass, remaining, temps, j)
+        tanks = {tid: remaining[:, i].copy() for i, tid in enumerate(craft.tank_ids)}
+        return Trend(t, remaining.sum(axis=1), tanks, dv, n)
     for k in range(len(t)):
         state = cap.State(float(mass[k]), remaining[k])
         for j, e in enumerate(craft.engines):

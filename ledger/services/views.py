@@ -133,11 +133,12 @@ def check(snap: Snapshot, engine: str, dv: float, include_pending: bool = True,
 
 
 def _flyer(snap: Snapshot):
-    """For a craft with performance tables: burns flown against the falling feed pressure (else None)."""
+    """For a craft with performance tables: burns flown against the falling feed pressure, and the dv free
+    after them integrated the same way (else None)."""
     view = snap.blowdown
     if view is None or view.flown is None:
         return None
-    from ..core.blowdown import flyer  # noqa: PLC0415
+    from ..core.blowcap import flyer  # noqa: PLC0415
 
     return flyer(view.model, view.temperature_k)
 

@@ -311,7 +311,8 @@ def dv_draw(model: Model, e: int, m0, r0, temps, dv, estimate=None, props=None) 
         return lambda x: (m - x) / model.ve(e, model.feed_pressure(e, a, x, b, c, d, sub))
 
     if estimate is None:
-        estimate = -m0 * np.expm1(-dv / bind(np.arange(len(r0)))(np.zeros(len(r0))) / m0)
+        rate0 = bind(np.arange(len(r0)))(np.zeros(len(r0)))  # dx/d(dv) at the start: m0 / ve
+        estimate = -m0 * np.expm1(-dv * rate0 / m0)  # the rocket equation at the starting ve
     return rk4(bind, dv, step_counts(model, e, estimate))
 
 

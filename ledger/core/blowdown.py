@@ -32,6 +32,7 @@ from .craft import G0, Craft, Engine, GasTable, Tank
 from .entries import Entry
 from .fluids import canonical_gas, is_gas_name
 from .replay import STEP_DRAW, STEP_MASS, STEP_REBASE, STEP_SCALE, Replay, Steps, _affine, replay_affine, steps_from_events
+from .replay import pulse_duration_scale
 
 R_GAS = 8.314462618
 """Molar gas constant, J/(mol·K), exact since the 2019 SI redefinition (N_A·k)."""
@@ -394,6 +395,9 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
     engine_ok = eng >= 0
     dep = engine_ok & model.table_engines[np.maximum(eng, 0)] & ((steps.kind == STEP_DRAW) | (steps.kind == STEP_SCALE))
     duration = _column(events, "duration")
+    pulse_scale = pulse_duration_scale(craft, [ev.data for ev in events], eng)
+    if pulse_scale is not None:  # impulse-bit pulse trains: their steady-state equivalent on-time
+        duration = duration * pulse_scale
     timed = dep & (steps.kind == STEP_DRAW) & ~np.isnan(duration)
     bydv = dep & (steps.kind == STEP_SCALE)
     dep = timed | bydv

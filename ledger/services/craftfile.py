@@ -14,7 +14,7 @@ import numpy as np
 
 import yaml
 
-from ..core.craft import Craft, Engine, Performance, Pressurant, Reserve, Routine, Tank
+from ..core.craft import Craft, Engine, ImpulseBit, Performance, Pressurant, Reserve, Routine, Tank
 from ..core.fluids import is_gas_name
 from ..errors import InputError
 from ..units import parse_quantity
@@ -263,7 +263,7 @@ def craft_from_document(doc: Any, src: str, extra_top: tuple[str, ...] = ()) -> 
                               thrust_sigma_n=f.qty("thrust_sigma", "force", required=False),
                               mixture_ratio_sigma=mr_sigma, performance=performance,
                               qualified_pressure_pa=qualified,
-                              **_pulse_and_life(src, node, f"engines[{i}]")))
+                              **_pulse_and_life(src, node, f"engines[{i}]", thrust, performance)))
     _unique(src, "engines", [e.id for e in engines])
     engine_ids = {e.id for e in engines}
 
@@ -426,17 +426,25 @@ LIFE_KEYS = {"pulses": ("pulses", None), "throughput": ("throughput_kg", "mass")
 """``life:`` keys of an engine -> (stored key, dimension; None for a plain count)."""
 
 
-def _pulse_and_life(src: str, node: Mapping, where: str) -> dict[str, Any]:
-    """An engine's ``pulse: {isp_factor: 0.75}`` and ``life: {pulses: 300000, throughput: 120 kg,
-    on_time: 50 h}`` (each optional): the pulse-mode Isp share and the qualified life limits."""
+def _pulse_and_life(src: str, node: Mapping, where: str, thrust: float = 0.0,
+                    performance: Performance | None = None) -> dict[str, Any]:
+    """An engine's ``pulse: {isp_factor: 0.75}`` or ``pulse: {impulse_bit: {...}}`` (or both) and ``life:
+    {pulses: 300000, throughput: 120 kg, on_time: 50 h}`` (each optional): the pulse-mode Isp share, the
+    impulse per pulse against on-time and the qualified life limits."""
     out: dict[str, Any] = {}
     if node.get("pulse") is not None:
         p = _Fields(src, node["pulse"], f"{where}.pulse")
+        if not p.node:
+            raise InputError(f"{p.at('isp_factor')}: expected isp_factor (e.g. 0.75) and/or an impulse_bit table")
         factor = p.node.get("isp_factor")
-        if isinstance(factor, bool) or not isinstance(factor, (int, float)) or not 0 < float(factor) <= 1:
-            raise InputError(f"{p.at('isp_factor')}: expected the pulse-mode Isp as a share of steady state, "
-                             f"above 0 and at most 1 (e.g. 0.75), got {shown(factor)}")
-        out["pulse_isp_factor"] = float(factor)
+        if factor is not None or "impulse_bit" not in p.node:
+            if isinstance(factor, bool) or not isinstance(factor, (int, float)) or not 0 < float(factor) <= 1:
+                raise InputError(f"{p.at('isp_factor')}: expected the pulse-mode Isp as a share of steady state, "
+                                 f"above 0 and at most 1 (e.g. 0.75), got {shown(factor)}")
+            out["pulse_isp_factor"] = float(factor)
+        if p.node.get("impulse_bit") is not None:
+            out["impulse_bit"] = _impulse_bit(src, p.node["impulse_bit"], f"{where}.pulse.impulse_bit", thrust,
+                                              performance)
     if node.get("life") is not None:
         f = _Fields(src, node["life"], f"{where}.life")
         unknown = sorted(set(map(str, f.node)) - set(LIFE_KEYS))
@@ -456,6 +464,44 @@ def _pulse_and_life(src: str, node: Mapping, where: str) -> dict[str, Any]:
                 life[stored] = f.qty(key, dim, positive=True)
         out["life"] = life
     return out
+
+
+MAX_TABLE_POINTS = 200
+"""A measured impulse-bit table has a few to a few tens of on-times; far more is a pasted data file."""
+
+
+def _impulse_bit(src: str, node: Any, where: str, thrust: float, performance: Performance | None) -> ImpulseBit:
+    """``impulse_bit: {on_time: [20 ms, 50 ms, 100 ms], impulse: [8 mN s, 30 mN s, 80 mN s], pressure: 22 bar}``:
+    the impulse of one pulse (I_bit = integral of F dt over the pulse) against the commanded on-time, strictly
+    increasing on-times, one positive impulse each. ``pressure`` (the feed pressure the table was measured
+    at) is needed with a performance table, so the impulse bit can follow thrust(p)/thrust(pressure), and
+    refused without one (a constant engine has no pressure to follow)."""
+    if not isinstance(node, Mapping):
+        raise InputError(f"{src}: {where}: expected a mapping with on_time and impulse lists (and pressure)")
+    lists = {}
+    for key, dim in (("on_time", "time"), ("impulse", "impulse")):
+        values = node.get(key)
+        if not isinstance(values, list) or not 2 <= len(values) <= MAX_TABLE_POINTS:
+            raise InputError(f"{src}: {where}.{key}: expected a list of 2 to {MAX_TABLE_POINTS} values such as "
+                             f"{'[20 ms, 50 ms]' if key == 'on_time' else '[8 mN s, 30 mN s]'}, got {shown(values)}")
+        lists[key] = [parse_quantity(v, dim, f"{src}: {where}.{key}[{i}]", positive=True) for i, v in enumerate(values)]
+    on_time, impulse = lists["on_time"], lists["impulse"]
+    if len(impulse) != len(on_time):
+        raise InputError(f"{src}: {where}: {len(on_time)} on-times but {len(impulse)} impulses (one impulse per "
+                         "on-time)")
+    if any(b <= a for a, b in zip(on_time, on_time[1:])):
+        raise InputError(f"{src}: {where}.on_time: expected strictly increasing on-times")
+    pressure = None
+    if node.get("pressure") is not None:
+        if performance is None:
+            raise InputError(f"{src}: {where}.pressure: this engine has no performance table, so the impulse bit "
+                             "cannot follow the feed pressure; leave pressure out")
+        pressure = parse_quantity(node["pressure"], "pressure", f"{src}: {where}.pressure", positive=True)
+        thrust = float(np.interp(pressure, performance.pressure_pa, performance.thrust_n))
+    elif performance is not None:
+        raise InputError(f"{src}: {where}.pressure: missing: with a performance table give the feed pressure the "
+                         "impulse bits were measured at (e.g. pressure: 22 bar)")
+    return ImpulseBit(tuple(on_time), tuple(impulse), float(thrust), pressure)
 
 
 def load_craft(path: str) -> Craft:

@@ -93,4 +93,21 @@ def totals(craft, events: Sequence, rep) -> list[dict[str, Any]]:
     return out
 
 
-__all__ = ["LIFE_WARN_SHARE", "parse_count", "pulse_train", "train_text", "totals", "life_warnings"]
+def impulse_bit_warnings(craft, events: Sequence) -> list[str]:
+    """'entry #12 (engine acs): on-time 5.000 ms per pulse outside its impulse-bit table (10.000 to 100.000 ms);
+    end value used' for every pulse train whose on-time lies outside its engine's table (the performance
+    tables' rule: the end value, and a warning on every entry that falls there)."""
+    out = []
+    bits = {e.id: e.impulse_bit for e in craft.engines if e.impulse_bit is not None}
+    for ev in events:
+        d = ev.data
+        ib = bits.get(d.get("engine")) if d.get("pulses") is not None else None
+        if ib is not None and ib.outside(float(d["on_time"])):
+            out.append(f"entry #{ev.seq} (engine {d['engine']}): on-time {1000 * float(d['on_time']):,.3f} ms per "
+                       f"pulse outside its impulse-bit table ({1000 * ib.on_time_s[0]:,.3f} to "
+                       f"{1000 * ib.on_time_s[-1]:,.3f} ms); end value used")
+    return out
+
+
+__all__ = ["LIFE_WARN_SHARE", "parse_count", "pulse_train", "train_text", "totals", "life_warnings",
+           "impulse_bit_warnings"]

@@ -152,6 +152,22 @@ def test_under_a_performance_table_the_impulse_bit_follows_thrust_over_its_refer
     assert snap.replay.propellant[-1] == pytest.approx(hand, rel=1e-3)
 
 
+def test_under_a_performance_table_the_monte_carlo_mean_is_the_nominal_draw(tmp_path):
+    """The sampler runs on the blowdown replay's equivalent ledger (services.blowdown): a pulse train's
+    equivalent on-time must carry over, so the samples' mean remaining is the nominal one (within 4 SE)."""
+    pytest.importorskip("CoolProp")
+    from ledger.core.montecarlo import simulate  # noqa: PLC0415
+
+    led = _ledger(tmp_path, BLOWDOWN)
+    led.record("use", {"engine": "mono", "duration": 9000.0}, at=T0)
+    led.record("use", {"engine": "mono", "pulses": 20000, "on_time": 0.060}, at=T0 + 60)
+    led.record("use", {"engine": "mono", "duration": 2000.0}, at=T0 + 120)
+    snap = led.snapshot()
+    s = simulate(snap.flight_craft, snap.flight_events, 2000, seed=1)
+    mean, se = float(s.remaining_kg[:, 0].mean()), float(s.remaining_kg[:, 0].std()) / math.sqrt(2000)
+    assert abs(mean - float(snap.state.remaining_kg[0])) < 4 * se
+
+
 @pytest.mark.parametrize("change, words", [
     (lambda ib: ib.update(impulse=["6 mN s", "42 mN s"]), "3 on-times but 2 impulses"),
     (lambda ib: ib.update(on_time=["50 ms", "10 ms", "100 ms"]), "impulse_bit.on_time: expected strictly increasing"),

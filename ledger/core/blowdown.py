@@ -460,6 +460,8 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
                 part = sel[panels == n_panels]
                 dv[part] = dv_over_draw(model, e, rep.mass_before[part], r_before[part], temps[part], x[part],
                                         panels=int(n_panels))
+        if steps.isp_factor is not None:  # pulse trains deliver the pulse-mode Isp, as in replay_affine
+            dv[timed_burn] = dv[timed_burn] * steps.isp_factor[timed_burn]
         with np.errstate(divide="ignore", invalid="ignore"):
             ve_t = dv[timed_burn] / np.log(rep.mass_before[timed_burn] / rep.mass_after[timed_burn])
         ve_event[timed_burn] = np.where(np.isfinite(ve_t) & (x[timed_burn] > 0), ve_t, ve0[eng[timed_burn]])

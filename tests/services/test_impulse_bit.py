@@ -75,6 +75,18 @@ def test_a_pulse_burn_delivers_the_impulse_over_the_mass(tmp_path):
     assert snap.replay.dv[-1] == pytest.approx(impulse / (m0 - mp / 2), rel=1e-6)
 
 
+def test_a_pulse_burn_executing_a_plan_is_judged_on_its_impulse(tmp_path):
+    led = _ledger(tmp_path)
+    mp = 2000 * 0.042 / (0.8 * 220.0 * constants.g)
+    delivered = 0.8 * 220.0 * constants.g * math.log(96.0 / (96.0 - mp))  # by hand, m0 = 96 kg
+    led.record("plan", {"engine": "acs", "dv": delivered}, at=T0)
+    stored, _ = led.record("burn", {"engine": "acs", "pulses": 2000, "on_time": 0.050, "plan": 1}, at=T0 + 10)
+    assert not any("achieved dv" in w for w in stored["data"].get("plan_warnings") or [])
+    led.record("plan", {"engine": "acs", "dv": delivered}, at=T0 + 20)
+    stored, _ = led.record("burn", {"engine": "acs", "pulses": 4000, "on_time": 0.050, "plan": 3}, at=T0 + 30)
+    assert any("achieved dv" in w for w in stored["data"]["plan_warnings"])  # twice the impulse: off the plan
+
+
 def test_without_an_isp_factor_the_steady_state_isp_is_used(tmp_path):
     doc = copy.deepcopy(DOC)
     del doc["engines"][0]["pulse"]["isp_factor"]
@@ -166,6 +178,27 @@ def test_under_a_performance_table_the_monte_carlo_mean_is_the_nominal_draw(tmp_
     s = simulate(snap.flight_craft, snap.flight_events, 2000, seed=1)
     mean, se = float(s.remaining_kg[:, 0].mean()), float(s.remaining_kg[:, 0].std()) / math.sqrt(2000)
     assert abs(mean - float(snap.state.remaining_kg[0])) < 4 * se
+
+
+def test_under_a_performance_table_the_execution_check_counts_the_pulse_isp(tmp_path):
+    """The delta-v a plan is judged against is the one the replay books, at the pulse-mode Isp (before, the
+    blowdown replay and this check both counted a table engine's pulse burn at the steady-state Isp)."""
+    pytest.importorskip("CoolProp")
+    from ledger.services.execution import achieved_dv  # noqa: PLC0415
+
+    led = _ledger(tmp_path, BLOWDOWN)
+    led.record("use", {"engine": "mono", "duration": 9000.0}, at=T0)
+    before = led.snapshot()
+    payload = {"engine": "mono", "pulses": 2000, "on_time": 0.060, "duration": 120.0}
+    judged = achieved_dv(before, payload)
+    led.record("burn", {"engine": "mono", "pulses": 2000, "on_time": 0.060}, at=T0 + 60)
+    assert judged == pytest.approx(float(led.snapshot().replay.dv[-1]), rel=1e-6)
+    after = led.snapshot()
+    p = float(after.blowdown.flown.pressure_start[-1])
+    isp = 218.3 + (226.4 - 218.3) * (p - 10e5) / 5e5 if p < 15e5 else 226.4 + (231.5 - 226.4) * (p - 15e5) / 7e5
+    m0, m1 = float(after.replay.mass_before[-1]), float(after.replay.mass_after[-1])
+    # by hand: the rocket equation at Isp_pulse = 0.75 x Isp(p), p nearly constant over a small train
+    assert float(after.replay.dv[-1]) == pytest.approx(0.75 * isp * constants.g * math.log(m0 / m1), rel=1e-3)
 
 
 @pytest.mark.parametrize("change, words", [

@@ -98,3 +98,16 @@ def test_the_e_key_opens_the_engine_detail_at_80x24(tmp_path):
             assert not isinstance(app.screen, EnginesDialog)
 
     run(go())
+
+
+def test_the_engine_detail_shows_an_impulse_bit_table():
+    import copy  # noqa: PLC0415
+
+    from ledger.services.craftfile import craft_from_document  # noqa: PLC0415
+    from ledger.tui.dialogs.engines import engines_text  # noqa: PLC0415
+    from tests.services.test_impulse_bit import DOC  # noqa: PLC0415
+
+    craft = craft_from_document(copy.deepcopy(DOC), "ib.yaml")
+    row = {"on_time_s": 0.0, "pulses": 0, "throughput_kg": 0.0, "life": {}, "life_used": {}}
+    text = engines_text(craft, [row]).plain
+    assert "impulse bit 6-92 mN s over 10-100 ms on-time" in text and "pulse Isp 80 % (176.0 s)" in text

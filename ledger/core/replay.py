@@ -94,7 +94,8 @@ def pulse_isp_factors(craft: Craft, datas: Sequence[Mapping[str, Any]], engine: 
     Interpretation (issue 12, point 3): a pulse train of N pulses of on-time T is stored as a timed firing
     of duration N x T (core.entries.PULSE_FIELDS), so it draws N x T x mass flow like any timed firing (the
     flow the valve passes while open: thrust/(Isp g0) at steady state, or the feed-pressure model's where
-    one is given). The impulse that flow delivers is lower in pulse mode, so a pulse *burn* delivers
+    one is given); an engine with an impulse-bit table draws N x I_bit(T) / (Isp_pulse g0) instead
+    (``pulse_duration_scale``). The impulse that flow delivers is lower in pulse mode, so a pulse *burn* delivers
     delta-v = isp_factor x ve x ln(m_before/m_after). None when the ledger holds no pulse train."""
     if not any(d.get("pulses") is not None for d in datas):
         return None

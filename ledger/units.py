@@ -29,6 +29,7 @@ DIMENSIONS: dict[str, tuple[str, str]] = {
     "temperature": ("K", "[temperature]"),
     "temperature_difference": ("K", "[temperature]"),
     "volume": ("m^3", "[length] ** 3"),
+    "impulse": ("N s", "[mass] * [length] / [time]"),
 }
 _ALIASES = ((re.compile(r"\blbm\b"), "lb"), (re.compile(r"\bpsi[ag]\b"), "psi"))
 _TEMPERATURE_LETTER = {"C": "degC", "F": "degF", "c": "degC"}

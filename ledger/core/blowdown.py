@@ -32,6 +32,7 @@ from .craft import G0, Craft, Engine, GasTable, Tank
 from .entries import Entry
 from .fluids import canonical_gas, is_gas_name
 from .replay import STEP_DRAW, STEP_MASS, STEP_REBASE, STEP_SCALE, Replay, Steps, _affine, replay_affine, steps_from_events
+from .replay import pulse_duration_scale
 
 R_GAS = 8.314462618
 """Molar gas constant, J/(mol·K), exact since the 2019 SI redefinition (N_A·k)."""
@@ -395,6 +396,9 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
     engine_ok = eng >= 0
     dep = engine_ok & model.table_engines[np.maximum(eng, 0)] & ((steps.kind == STEP_DRAW) | (steps.kind == STEP_SCALE))
     duration = _column(events, "duration")
+    pulse_scale = pulse_duration_scale(craft, [ev.data for ev in events], eng)
+    if pulse_scale is not None:  # impulse-bit pulse trains: their steady-state equivalent on-time
+        duration = duration * pulse_scale
     timed = dep & (steps.kind == STEP_DRAW) & ~np.isnan(duration)
     bydv = dep & (steps.kind == STEP_SCALE)
     dep = timed | bydv
@@ -457,6 +461,8 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
                 part = sel[panels == n_panels]
                 dv[part] = dv_over_draw(model, e, rep.mass_before[part], r_before[part], temps[part], x[part],
                                         panels=int(n_panels))
+        if steps.isp_factor is not None:  # pulse trains deliver the pulse-mode Isp, as in replay_affine
+            dv[timed_burn] = dv[timed_burn] * steps.isp_factor[timed_burn]
         with np.errstate(divide="ignore", invalid="ignore"):
             ve_t = dv[timed_burn] / np.log(rep.mass_before[timed_burn] / rep.mass_after[timed_burn])
         ve_event[timed_burn] = np.where(np.isfinite(ve_t) & (x[timed_burn] > 0), ve_t, ve0[eng[timed_burn]])

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from .craft import Craft, Engine, GasTable, Performance, Pressurant, Reserve, Routine, Tank
+from .craft import Craft, Engine, GasTable, ImpulseBit, Performance, Pressurant, Reserve, Routine, Tank
 
 
 def craft_to_dict(craft: Craft) -> dict[str, Any]:
@@ -45,6 +45,12 @@ def craft_to_dict(craft: Craft) -> dict[str, Any]:
                                 "isp_s": list(pf.isp_s)}
         if e.qualified_pressure_pa is not None:
             d["qualified_pressure_pa"] = list(e.qualified_pressure_pa)
+        if e.impulse_bit is not None:
+            ib = e.impulse_bit
+            d["impulse_bit"] = {"on_time_s": list(ib.on_time_s), "impulse_ns": list(ib.impulse_ns),
+                                "reference_thrust_n": ib.reference_thrust_n}
+            if ib.pressure_pa is not None:
+                d["impulse_bit"]["pressure_pa"] = ib.pressure_pa
         return d
 
     out: dict[str, Any] = {
@@ -89,7 +95,13 @@ def craft_from_dict(d: dict[str, Any]) -> Craft:
             performance=performance(e["performance"]) if e.get("performance") else None,
             qualified_pressure_pa=tuple(float(x) for x in e["qualified_pressure_pa"])
             if e.get("qualified_pressure_pa") else None,
+            impulse_bit=impulse_bit(e["impulse_bit"]) if e.get("impulse_bit") else None,
         )
+
+    def impulse_bit(ib: dict[str, Any]) -> ImpulseBit:
+        return ImpulseBit(tuple(float(x) for x in ib["on_time_s"]), tuple(float(x) for x in ib["impulse_ns"]),
+                          float(ib["reference_thrust_n"]),
+                          float(ib["pressure_pa"]) if ib.get("pressure_pa") is not None else None)
 
     def performance(pf: dict[str, Any]) -> Performance:
         return Performance(tuple(float(x) for x in pf["pressure_pa"]), tuple(float(x) for x in pf["thrust_n"]),

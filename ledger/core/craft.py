@@ -55,6 +55,27 @@ class Performance:
 
 
 @dataclass(frozen=True)
+class ImpulseBit:
+    """Impulse per pulse against the commanded on-time (I_bit = the integral of F dt over one pulse),
+    measured at one feed pressure; interpolated linearly in on-time, the end values outside the table.
+
+    ``reference_thrust_n`` is the steady-state thrust at that feed pressure: a pulse train's impulse bit
+    follows the feed pressure as thrust(p)/reference_thrust_n (engines with a performance table only)."""
+
+    on_time_s: tuple[float, ...]
+    impulse_ns: tuple[float, ...]
+    reference_thrust_n: float
+    pressure_pa: float | None = None
+    """Feed pressure the table was measured at (engines with a performance table); None: no pressure model."""
+
+    def impulse(self, on_time_s) -> np.ndarray:
+        return np.interp(on_time_s, self.on_time_s, self.impulse_ns)
+
+    def outside(self, on_time_s: float) -> bool:
+        return not self.on_time_s[0] <= on_time_s <= self.on_time_s[-1]
+
+
+@dataclass(frozen=True)
 class Tank:
     id: str
     fluid: str
@@ -91,6 +112,21 @@ class Engine:
     """Qualified life limits (``pulses``, ``throughput_kg``, ``on_time_s``), any of them; None = none given."""
     mixture_ratio_sigma: float | None = None
     """One sigma of the mixture ratio as flown: the first feed's mass parts over the second's (two feeds only)."""
+    impulse_bit: ImpulseBit | None = None
+    """Impulse per pulse against on-time (craft file ``pulse: {impulse_bit: ...}``); None = pulses at steady flow."""
+
+    def pulse_on_time_scale(self, on_time_s) -> np.ndarray:
+        """Steady-state seconds per second of pulse on-time: a train of N pulses of T draws what N x T x this
+        seconds of steady firing draw. With an impulse-bit table: I_bit(T) / (T x F_ref x isp_factor), so the
+        draw is N x I_bit(T) / (Isp_pulse g0) with Isp_pulse = isp_factor x steady-state Isp (times
+        thrust(p)/F_ref under a performance table). Without one: 1 (the valve passes the steady flow)."""
+        t = np.asarray(on_time_s, dtype=float)
+        if self.impulse_bit is None:
+            return np.ones(t.shape)
+        ib = self.impulse_bit
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out = ib.impulse(t) / (t * ib.reference_thrust_n * self.pulse_isp_factor)
+        return np.where(t > 0, out, 1.0)
 
     @property
     def mixture_ratio(self) -> float | None:
@@ -177,6 +213,10 @@ class Craft:
             for tank_id, parts in eng.feeds.items():
                 frac[i, ids.index(tank_id)] = parts / total
         return frac
+
+    @property
+    def has_impulse_bits(self) -> bool:
+        return any(e.impulse_bit is not None for e in self.engines)
 
     @property
     def has_tables(self) -> bool:

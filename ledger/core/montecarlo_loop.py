@@ -49,7 +49,8 @@ def simulate_loop(craft: Craft, events: Sequence[Entry], samples: int, seed: int
                 p = -m * math.expm1(-dv / ve_all[s, e])
             elif d.get("duration") is not None:
                 flow = thrust[s, e] / (isp[s, e] * G0)
-                p = flow * d["duration"] + nominal_flow[e] * entry_sigma(d, "duration") * rng.standard_normal()
+                k = float(craft.engines[e].pulse_on_time_scale(d["on_time"])) if d.get("pulses") is not None else 1.0
+                p = (flow * d["duration"] + nominal_flow[e] * entry_sigma(d, "duration") * rng.standard_normal()) * k
             else:
                 p = d["propellant"] + entry_sigma(d, "propellant") * rng.standard_normal()
             m -= p

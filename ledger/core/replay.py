@@ -66,6 +66,9 @@ def steps_from_events(craft: Craft, events: Sequence[Entry]) -> Steps:
     if unknown.size:
         raise KeyError(f"engine {datas[int(unknown[0])].get('engine')!r} of entry {events[int(unknown[0])].seq}")
     dv, duration = _column(datas, "dv"), _column(datas, "duration")
+    pulse_scale = pulse_duration_scale(craft, datas, engine)
+    if pulse_scale is not None:  # pulse trains of impulse-bit engines: their steady-state equivalent on-time
+        duration = duration * pulse_scale
     scale = is_burn & ~np.isnan(dv)
     timed = ~(is_mass | is_rebase | scale) & ~np.isnan(duration)
     by_mass = ~(is_mass | is_rebase | scale | timed)
@@ -91,13 +94,33 @@ def pulse_isp_factors(craft: Craft, datas: Sequence[Mapping[str, Any]], engine: 
     Interpretation (issue 12, point 3): a pulse train of N pulses of on-time T is stored as a timed firing
     of duration N x T (core.entries.PULSE_FIELDS), so it draws N x T x mass flow like any timed firing (the
     flow the valve passes while open: thrust/(Isp g0) at steady state, or the feed-pressure model's where
-    one is given). The impulse that flow delivers is lower in pulse mode, so a pulse *burn* delivers
+    one is given); an engine with an impulse-bit table draws N x I_bit(T) / (Isp_pulse g0) instead
+    (``pulse_duration_scale``). The impulse that flow delivers is lower in pulse mode, so a pulse *burn* delivers
     delta-v = isp_factor x ve x ln(m_before/m_after). None when the ledger holds no pulse train."""
     if not any(d.get("pulses") is not None for d in datas):
         return None
     factors = np.array([e.pulse_isp_factor for e in craft.engines] + [1.0])
     pulsed = np.fromiter((d.get("pulses") is not None for d in datas), dtype=bool, count=len(datas))
     return np.where(pulsed, factors[engine], 1.0)
+
+
+def pulse_duration_scale(craft: Craft, datas: Sequence[Mapping[str, Any]], engine: np.ndarray) -> np.ndarray | None:
+    """Per event, the factor that turns a pulse train's stored total on-time N x T into the steady-state
+    on-time that draws its propellant (``Engine.pulse_on_time_scale``); 1 for every other event. None (no
+    work) when no engine has an impulse-bit table or the ledger holds no pulse train. Applied wherever a
+    duration becomes propellant (this replay, core.blowdown, core.segments, the reference loops)."""
+    if not craft.has_impulse_bits or not any(d.get("pulses") is not None for d in datas):
+        return None
+    out = np.ones(len(datas))
+    for e, eng in enumerate(craft.engines):
+        if eng.impulse_bit is None:
+            continue
+        sel = np.flatnonzero((np.asarray(engine) == e)
+                             & np.fromiter((d.get("pulses") is not None for d in datas), dtype=bool, count=len(datas)))
+        if sel.size:
+            on_time = np.array([float(datas[i]["on_time"]) for i in sel.tolist()])
+            out[sel] = eng.pulse_on_time_scale(on_time)
+    return out
 
 
 @dataclass(frozen=True)
@@ -235,6 +258,8 @@ def replay_loop(craft: Craft, events: Sequence[Entry]) -> tuple[float, np.ndarra
             p = m * (1.0 - np.exp(-d["dv"] / ve[e]))
         elif d.get("duration") is not None:
             p = flows[e] * d["duration"]
+            if d.get("pulses") is not None:  # a pulse train: its steady-state equivalent on-time
+                p *= float(craft.engines[e].pulse_on_time_scale(d["on_time"]))
         else:
             p = d["propellant"]
         m -= p
@@ -242,4 +267,5 @@ def replay_loop(craft: Craft, events: Sequence[Entry]) -> tuple[float, np.ndarra
     return m, remaining
 
 
-__all__ = ["Replay", "Steps", "replay", "replay_loop", "steps_from_events", "replay_affine", "mass_scan", "scan_log", "USE"]
+__all__ = ["Replay", "Steps", "replay", "replay_loop", "steps_from_events", "replay_affine", "mass_scan", "scan_log", "USE",
+           "pulse_duration_scale"]

@@ -65,7 +65,11 @@ def segments(craft: Craft, events: Sequence[Entry]) -> Segments:
         given = d.get("sigma")
         if given is None and d.get("pulses") is not None and field == "duration":
             given = entry_sigma(d, field)  # a pulse train's own default (core.sigmas)
-        rows.append((field, e, d[field], np.nan if given is None else given))
+        amount = d[field]
+        if field == "duration" and d.get("pulses") is not None and craft.engines[e].impulse_bit is not None:
+            k = float(craft.engines[e].pulse_on_time_scale(d["on_time"]))  # steady-state equivalent on-time
+            amount, given = amount * k, given * k
+        rows.append((field, e, amount, np.nan if given is None else given))
     fields_, engine_, amount_, given_ = zip(*rows) if rows else ((), (), (), ())
     code = np.array([_CODE[f] for f in fields_], dtype=np.int8)  # 0 scale, 1 duration, 2 propellant, 3 mass
     engine = np.array(engine_, dtype=np.int64)

@@ -14,7 +14,7 @@ import numpy as np
 
 import yaml
 
-from ..core.craft import Craft, Engine, Performance, Pressurant, Reserve, Routine, Tank
+from ..core.craft import Craft, Engine, ImpulseBit, Performance, Pressurant, Reserve, Routine, Tank
 from ..core.fluids import is_gas_name
 from ..errors import InputError
 from ..units import parse_quantity
@@ -199,9 +199,11 @@ def _mixture(f: _Fields, feeds: dict[str, float], feed_sigma: tuple[str, float] 
     return {tank_id: feeds[tank_id], other: feeds[other]}, sigma / feeds[other]
 
 
-def craft_from_document(doc: Any, src: str) -> Craft:
+def craft_from_document(doc: Any, src: str, extra_top: tuple[str, ...] = ()) -> Craft:
+    """The validated craft; ``extra_top`` names top-level keys another reader owns (a scenario's history)."""
     if not isinstance(doc, Mapping):
         raise InputError(f"{src}: expected a mapping with craft, tanks, engines (and reserves)")
+    check_keys(src, doc, extra_top)
     head = _Fields(src, doc.get("craft"), "craft") if "craft" in doc else None
     if head is None:
         raise InputError(f"{src}: craft: missing (expected name and dry_mass)")
@@ -261,7 +263,7 @@ def craft_from_document(doc: Any, src: str) -> Craft:
                               thrust_sigma_n=f.qty("thrust_sigma", "force", required=False),
                               mixture_ratio_sigma=mr_sigma, performance=performance,
                               qualified_pressure_pa=qualified,
-                              **_pulse_and_life(src, node, f"engines[{i}]")))
+                              **_pulse_and_life(src, node, f"engines[{i}]", thrust, performance)))
     _unique(src, "engines", [e.id for e in engines])
     engine_ids = {e.id for e in engines}
 
@@ -424,17 +426,25 @@ LIFE_KEYS = {"pulses": ("pulses", None), "throughput": ("throughput_kg", "mass")
 """``life:`` keys of an engine -> (stored key, dimension; None for a plain count)."""
 
 
-def _pulse_and_life(src: str, node: Mapping, where: str) -> dict[str, Any]:
-    """An engine's ``pulse: {isp_factor: 0.75}`` and ``life: {pulses: 300000, throughput: 120 kg,
-    on_time: 50 h}`` (each optional): the pulse-mode Isp share and the qualified life limits."""
+def _pulse_and_life(src: str, node: Mapping, where: str, thrust: float = 0.0,
+                    performance: Performance | None = None) -> dict[str, Any]:
+    """An engine's ``pulse: {isp_factor: 0.75}`` or ``pulse: {impulse_bit: {...}}`` (or both) and ``life:
+    {pulses: 300000, throughput: 120 kg, on_time: 50 h}`` (each optional): the pulse-mode Isp share, the
+    impulse per pulse against on-time and the qualified life limits."""
     out: dict[str, Any] = {}
     if node.get("pulse") is not None:
         p = _Fields(src, node["pulse"], f"{where}.pulse")
+        if not p.node:
+            raise InputError(f"{p.at('isp_factor')}: expected isp_factor (e.g. 0.75) and/or an impulse_bit table")
         factor = p.node.get("isp_factor")
-        if isinstance(factor, bool) or not isinstance(factor, (int, float)) or not 0 < float(factor) <= 1:
-            raise InputError(f"{p.at('isp_factor')}: expected the pulse-mode Isp as a share of steady state, "
-                             f"above 0 and at most 1 (e.g. 0.75), got {shown(factor)}")
-        out["pulse_isp_factor"] = float(factor)
+        if factor is not None or "impulse_bit" not in p.node:
+            if isinstance(factor, bool) or not isinstance(factor, (int, float)) or not 0 < float(factor) <= 1:
+                raise InputError(f"{p.at('isp_factor')}: expected the pulse-mode Isp as a share of steady state, "
+                                 f"above 0 and at most 1 (e.g. 0.75), got {shown(factor)}")
+            out["pulse_isp_factor"] = float(factor)
+        if p.node.get("impulse_bit") is not None:
+            out["impulse_bit"] = _impulse_bit(src, p.node["impulse_bit"], f"{where}.pulse.impulse_bit", thrust,
+                                              performance)
     if node.get("life") is not None:
         f = _Fields(src, node["life"], f"{where}.life")
         unknown = sorted(set(map(str, f.node)) - set(LIFE_KEYS))
@@ -456,5 +466,140 @@ def _pulse_and_life(src: str, node: Mapping, where: str) -> dict[str, Any]:
     return out
 
 
+MAX_TABLE_POINTS = 200
+"""A measured impulse-bit table has a few to a few tens of on-times; far more is a pasted data file."""
+
+
+def _impulse_bit(src: str, node: Any, where: str, thrust: float, performance: Performance | None) -> ImpulseBit:
+    """``impulse_bit: {on_time: [20 ms, 50 ms, 100 ms], impulse: [8 mN s, 30 mN s, 80 mN s], pressure: 22 bar}``:
+    the impulse of one pulse (I_bit = integral of F dt over the pulse) against the commanded on-time, strictly
+    increasing on-times, one positive impulse each. ``pressure`` (the feed pressure the table was measured
+    at) is needed with a performance table, so the impulse bit can follow thrust(p)/thrust(pressure), and
+    refused without one (a constant engine has no pressure to follow)."""
+    if not isinstance(node, Mapping):
+        raise InputError(f"{src}: {where}: expected a mapping with on_time and impulse lists (and pressure)")
+    lists = {}
+    for key, dim in (("on_time", "time"), ("impulse", "impulse")):
+        values = node.get(key)
+        if not isinstance(values, list) or not 2 <= len(values) <= MAX_TABLE_POINTS:
+            raise InputError(f"{src}: {where}.{key}: expected a list of 2 to {MAX_TABLE_POINTS} values such as "
+                             f"{'[20 ms, 50 ms]' if key == 'on_time' else '[8 mN s, 30 mN s]'}, got {shown(values)}")
+        lists[key] = [parse_quantity(v, dim, f"{src}: {where}.{key}[{i}]", positive=True) for i, v in enumerate(values)]
+    on_time, impulse = lists["on_time"], lists["impulse"]
+    if len(impulse) != len(on_time):
+        raise InputError(f"{src}: {where}: {len(on_time)} on-times but {len(impulse)} impulses (one impulse per "
+                         "on-time)")
+    if any(b <= a for a, b in zip(on_time, on_time[1:])):
+        raise InputError(f"{src}: {where}.on_time: expected strictly increasing on-times")
+    pressure = None
+    if node.get("pressure") is not None:
+        if performance is None:
+            raise InputError(f"{src}: {where}.pressure: this engine has no performance table, so the impulse bit "
+                             "cannot follow the feed pressure; leave pressure out")
+        pressure = parse_quantity(node["pressure"], "pressure", f"{src}: {where}.pressure", positive=True)
+        thrust = float(np.interp(pressure, performance.pressure_pa, performance.thrust_n))
+    elif performance is not None:
+        raise InputError(f"{src}: {where}.pressure: missing: with a performance table give the feed pressure the "
+                         "impulse bits were measured at (e.g. pressure: 22 bar)")
+    return ImpulseBit(tuple(on_time), tuple(impulse), float(thrust), pressure)
+
+
 def load_craft(path: str) -> Craft:
     return craft_from_document(load_yaml(path), path)
+
+
+# --- the keys a craft file may hold, level by level -------------------------------------------------
+# None: a value of any shape (its own parser checks it); a dict: a mapping with exactly these keys; a list
+# of one schema: a list of such items; FEEDS: tank ids to mass parts or {parts, sigma}.
+FEEDS = object()
+_OPERATIONS = {"routine": [{"engine": None, "dv_per_year": None}],
+               "plan_dv_tolerance": {"relative": None, "absolute": None},
+               "approval": {"approvers": None, "above_dv": None}}
+KEYS: dict[str, Any] = {
+    "craft": {"name": None, "dry_mass": None, "dry_mass_sigma": None, "operations": _OPERATIONS},
+    "tanks": [{"id": None, "fluid": None, "load": None, "residual": None, "volume": None, "load_sigma": None,
+               "expansion": None, "pressurant": {"gas": None, "pressure": None, "temperature": None}}],
+    "engines": [{"id": None, "feeds": FEEDS, "isp": None, "thrust": None, "cant": None, "isp_sigma": None,
+                 "thrust_sigma": None, "mixture_ratio_sigma": None,
+                 "performance": {"pressure": None, "thrust": None, "isp": None}, "qualified_pressure": None,
+                 "pulse": {"isp_factor": None, "impulse_bit": {"on_time": None, "impulse": None, "pressure": None}},
+                 "life": {"pulses": None, "throughput": None, "on_time": None}}],
+    "reserves": [{"id": None, "engine": None, "dv": None}],
+    "operations": _OPERATIONS,
+    "import": {"devices": None, "delta_mass_tolerance": {"relative": None, "absolute": None},
+               "firings": {"columns": {"time": None, "thruster": None, "on_time": None, "pulses": None},
+                           "on_time_unit": None, "pass_gap": None, "orbit_period": None, "orbit_epoch": None}},
+}
+"""Why refuse what is not here: a key in the wrong place (``approval:`` beside ``operations:`` instead of
+under it, ``isp_factor`` on the engine instead of under ``pulse:``) was silently dropped, and with it a
+two-person rule or a pulse-mode Isp. Every level the parser reads is listed; keep it in step with the parser."""
+
+
+def _places(schema: Any, path: str, out: dict[str, list[str]]) -> dict[str, list[str]]:
+    """key -> every generic path it is known at ('engines[].pulse.isp_factor'), for the did-you-mean."""
+    if isinstance(schema, list):
+        return _places(schema[0], path + "[]", out)
+    if isinstance(schema, dict):
+        for key, sub in schema.items():
+            full = f"{path}.{key}" if path else key
+            out.setdefault(key, []).append(full)
+            _places(sub, full, out)
+    if schema is FEEDS:
+        for key in ("parts", "sigma"):
+            out.setdefault(key, []).append(f"{path}.<tank>.{key}")
+    return out
+
+
+def _suggestion(key: str, allowed: list[str], generic: str, concrete: str) -> str:
+    """' (did you mean X?)': a close spelling at this level, else the same key where it belongs."""
+    import difflib  # noqa: PLC0415
+
+    close = difflib.get_close_matches(key, allowed, n=1, cutoff=0.6)
+    if close:
+        return f" (did you mean {close[0]}?)"
+    places = _places(KEYS, "", {}).get(key) or []
+    if not places:
+        wrong = {k.lower(): k for k in _places(KEYS, "", {})}
+        near = difflib.get_close_matches(key.lower(), list(wrong), n=1, cutoff=0.8)
+        places = _places(KEYS, "", {}).get(wrong[near[0]], []) if near else []
+    if not places:
+        return ""
+    inside = [p for p in places if generic and p.startswith(generic + ".")]
+    best = (inside or places)[0]
+    if inside:
+        best = concrete + best[len(generic):]
+    return f" (did you mean {best}?)"
+
+
+def check_keys(src: str, doc: Any, extra_top: tuple[str, ...] = ()) -> None:
+    """Refuse any key the parser would not read, with one line naming the key and where it is."""
+    top = dict(KEYS, **{k: None for k in extra_top})
+
+    def walk(node: Any, schema: Any, generic: str, concrete: str) -> None:
+        if schema is None or not isinstance(node, (Mapping, list)):
+            return  # the parser of that value reports a wrong shape with its own message
+        if isinstance(schema, list):
+            if isinstance(node, list):
+                for i, item in enumerate(node):
+                    walk(item, schema[0], generic + "[]", f"{concrete}[{i}]")
+            return
+        if not isinstance(node, Mapping):
+            return
+        if schema is FEEDS:
+            for tank_id, value in node.items():
+                walk(value, {"parts": None, "sigma": None}, f"{generic}.<tank>", f"{concrete}.{tank_id}")
+            return
+        for key in node:
+            if not isinstance(key, str) or key not in schema:
+                where = concrete or "top level"
+                hint = _suggestion(str(key), list(schema), generic, concrete)
+                raise InputError(f"craft file {src}: unknown key {shown(key)} at {where}{hint}")
+            walk(node[key], schema[key], f"{generic}.{key}" if generic else key,
+                 f"{concrete}.{key}" if concrete else key)
+
+    if isinstance(doc, Mapping):
+        walk(doc, top, "", "")
+        head = doc.get("craft")
+        if isinstance(head, Mapping) and head.get("operations") is not None and doc.get("operations") is not None:
+            raise InputError(f"craft file {src}: operations given both at top level and under craft: keep one "
+                             "(craft.operations); the other would be ignored")

@@ -48,17 +48,22 @@ def achieved_dv(snap: Snapshot, payload: Mapping[str, Any], at: float | None = N
     e = snap.craft.engine_index(payload["engine"])
     eng = snap.craft.engines[e]
     view = snap.blowdown
+    pulsed = payload.get("pulses") is not None
+    duration = payload.get("duration")
+    if duration is not None and pulsed:  # a pulse train: its steady-state equivalent on-time (impulse bit)
+        duration = float(duration) * float(eng.pulse_on_time_scale(payload["on_time"]))
     if view is not None and e in view.model.perf:  # performance against the falling feed pressure
         from ..core import blowdown as bd  # noqa: PLC0415
 
         r0, temps, m = snap.state.remaining_kg[None, :], view.temperature_k[None, :], snap.state.mass_kg
-        if payload.get("duration") is not None:
-            p = float(bd.timed_draw(view.model, e, r0, temps, float(payload["duration"]))[0])
+        if duration is not None:
+            p = float(bd.timed_draw(view.model, e, r0, temps, float(duration))[0])
         else:
             p = float(payload.get("propellant") or 0.0)
-        return float(bd.dv_over_draw(view.model, e, m, r0, temps, p)[0]) if 0 < p < m else None
-    if payload.get("duration") is not None:
-        p = eng.mass_flow * float(payload["duration"])
+        factor = eng.pulse_isp_factor if pulsed else 1.0  # pulse-mode Isp, as the replay counts it
+        return factor * float(bd.dv_over_draw(view.model, e, m, r0, temps, p)[0]) if 0 < p < m else None
+    if duration is not None:
+        p = eng.mass_flow * float(duration)
     elif payload.get("propellant") is not None:
         p = float(payload["propellant"])
     else:

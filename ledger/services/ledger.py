@@ -100,6 +100,10 @@ def _warnings(craft: Craft, events: Sequence[Entry], rep: Replay, state: cap.Sta
         from .pulses import life_warnings, totals  # noqa: PLC0415
 
         out.extend(life_warnings(totals(craft, events, rep)))
+    if craft.has_impulse_bits:  # pulse trains outside an impulse-bit table (services.pulses)
+        from .pulses import impulse_bit_warnings  # noqa: PLC0415
+
+        out.extend(impulse_bit_warnings(craft, events))
     return out
 
 

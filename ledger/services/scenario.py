@@ -114,7 +114,7 @@ def _check(craft, kind, data, where):
 def build(scenario_path: str, ledger_path: str) -> Ledger:
     """Create a ledger at ``ledger_path`` from a scenario file (never modifies the scenario)."""
     doc = load_yaml(scenario_path)
-    craft = craft_from_document(doc, scenario_path)
+    craft = craft_from_document(doc, scenario_path, extra_top=("history",))
     records = load_history(doc, scenario_path, craft)
     create(ledger_path, craft, by="demo")
     ledger = Ledger(ledger_path)

@@ -43,6 +43,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
         },
         "reserves": reserves,
         "mixture_outage": mixture_outage(snap),
+        "thrusters": thrusters(snap),
         "pending_plans": [plan_row(p) for p in snap.resolved.pending],
         "integrity": "intact" if snap.integrity is None else str(snap.integrity),
         "warnings": list(snap.warnings),
@@ -51,6 +52,15 @@ def status(snap: Snapshot) -> dict[str, Any]:
     # Last, so that any low bounds already in the status (dv_free_low_m_s) give the low-bound dates too.
     out["forecast"] = forecast(snap, out)
     return out
+
+
+def thrusters(snap: Snapshot) -> list[dict[str, Any]]:
+    """Per engine over the whole ledger: on-time (s), pulses, throughput (kg) and, against each ``life:``
+    limit of the craft file, the share used (``services.pulses.totals``; the warning at 80 % is the one
+    warning list's)."""
+    from .pulses import totals  # noqa: PLC0415
+
+    return totals(snap.craft, snap.resolved.events, snap.replay)
 
 
 def mixture_outage(snap: Snapshot) -> list[dict[str, Any]]:

@@ -50,6 +50,8 @@ ACTIONS = (
 OFF_BAR = (
     Action("i", "import", "Import", "Import a CCSDS message or firings CSV",
            "OPM/OCM (KVN or XML) or telemetry firings: the dry run first, then recorded exactly once"),
+    Action("e", "engines", "Engines", "Show engine detail",
+           "each engine's on-time, pulses and throughput against its qualified life (or click the engines panel)"),
 )
 """Actions with a key and a palette command but no place on the key bar (it is full at 80 columns)."""
 

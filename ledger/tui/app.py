@@ -335,9 +335,6 @@ class LedgerConsole(App):
         yield SystemCommand(f"Open the fleet screen  ({FLEET_KEY})",
                             "every craft of the fleet folder ($PROPLEDGER_FLEET) by attention; Enter opens one",
                             self.open_fleet)
-        # No key of its own (the key bar is full at 80x24): the palette and a click on the engines panel.
-        yield SystemCommand("Show engine detail  (click the engines panel)",
-                            "each engine's on-time, pulses and throughput against its qualified life", self.open_engines)
 
 
 def make_app(path: str, demo: bool = False) -> LedgerConsole:

@@ -49,7 +49,7 @@ LIFE = {"type": "object", "properties": {"runs_out": {"type": ["string", "null"]
 STATUS = {
     "$schema": "https://json-schema.org/draft/2020-12/schema", "type": "object",
     "required": ["craft", "entries", "as_of", "mass_kg", "dry_mass_kg", "tanks", "engines", "reserves",
-                 "pending_plans", "integrity", "warnings", "caution", "forecast", "confidence", "uncertainty"],
+                 "thrusters", "pending_plans", "integrity", "warnings", "caution", "forecast", "confidence", "uncertainty"],
     "properties": {
         "craft": STR, "ledger": STR, "entries": {"type": "integer"}, "as_of": {"type": ["string", "null"]},
         "mass_kg": NUM, "dry_mass_kg": NUM, "integrity": STR, "caution": STR, "confidence": NUM,
@@ -75,6 +75,15 @@ STATUS = {
             "stranded_tank": {"type": ["string", "null"]}, "runs_out_first": {"type": ["string", "null"]},
             "stranded_high_kg": NUM, "stranded_mean_kg": NUM,
             "stranded_tank_share": {"type": "object", "additionalProperties": NUM}}}},
+        "thrusters": {"type": "array", "items": {"type": "object", "required": [
+            "engine", "on_time_s", "pulses", "throughput_kg", "life", "life_used"], "additionalProperties": False,
+            "properties": {
+                "engine": STR, "on_time_s": {"type": "number", "minimum": 0}, "pulses": {"type": "integer", "minimum": 0},
+                "throughput_kg": NUM,
+                "life": {"type": "object", "additionalProperties": False, "properties": {
+                    "pulses": NUM, "throughput_kg": NUM, "on_time_s": NUM}},
+                "life_used": {"type": "object", "additionalProperties": False, "properties": {
+                    "pulses": NUM, "throughput_kg": NUM, "on_time_s": NUM}}}}},
         "pending_plans": {"type": "array", "items": {"type": "object", "required": [
             "id", "engine", "dv_m_s", "at", "approval", "approvals_needed", "approvals_counted"], "properties": {
             "id": {"type": "integer"}, "engine": STR, "dv_m_s": NUM, "at": ISO,

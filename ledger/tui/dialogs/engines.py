@@ -28,6 +28,11 @@ def engines_text(craft, totals: Sequence[dict[str, Any]]) -> Text:
         if eng.pulse_isp_factor != 1.0:
             line += f" · pulse Isp {100 * eng.pulse_isp_factor:.0f} % ({eng.isp_s * eng.pulse_isp_factor:,.1f} s)"
         out.append(line + "\n", style="grey70")
+        if eng.impulse_bit is not None:
+            ib = eng.impulse_bit
+            at = f" at {ib.pressure_pa / 1e5:,.1f} bar" if ib.pressure_pa is not None else ""
+            out.append(f"  impulse bit {1000 * ib.impulse_ns[0]:,.4g}-{1000 * ib.impulse_ns[-1]:,.4g} mN s over "
+                       f"{1000 * ib.on_time_s[0]:,.4g}-{1000 * ib.on_time_s[-1]:,.4g} ms on-time{at}\n", style="grey70")
         out.append(f"  on-time {t['on_time_s']:,.1f} s · pulses {t['pulses']:,} · throughput "
                    f"{t['throughput_kg']:,.3f} kg\n")
         life = t.get("life") or {}

@@ -296,6 +296,9 @@ class MainScreen(Screen):
     def action_alerts(self) -> None:
         self.app.open_alerts()
 
+    def action_engines(self) -> None:
+        self.app.open_engines()
+
     def action_quit(self) -> None:
         self.app.exit()
 

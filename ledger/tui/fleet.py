@@ -104,6 +104,7 @@ class FleetApp(App):
         self.loaded = threading.Event()
         self._busy = False
         self._wide: bool | None = None
+        self.store_note: str | None = None  # "disconnected ..." while a database fleet's server is away
 
     def compose(self) -> ComposeResult:
         yield Static("Fleet: reading the ledgers...", id="fleet-head")
@@ -139,6 +140,12 @@ class FleetApp(App):
     def poll(self) -> None:
         if self._busy or not self.loaded.is_set():
             return
+        note = self.source.live_note() if hasattr(self.source, "live_note") else None
+        if note != self.store_note:
+            self.store_note = note
+            self.redraw()
+            if note:
+                self.notify(note, severity="warning", timeout=8)
         try:
             stamps = self._stamps()
         except Exception:  # noqa: BLE001 - the folder went away for a moment: try again next time
@@ -190,7 +197,7 @@ class FleetApp(App):
         self.query_one("#fleet-head").update(
             f"Fleet {self.source.label} · {s['craft']} craft · {s['attention']} need attention · "
             f"{s['broken']} broken · {s['unreadable']} unreadable · margin < {self.margin:g} m/s · "
-            f"sort {self.sort}{filt}")
+            f"sort {self.sort}{filt}" + (f" · {self.store_note}" if self.store_note else ""))
         self.show_why()
 
     def selected_row(self) -> dict[str, Any] | None:

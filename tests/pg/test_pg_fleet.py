@@ -255,6 +255,42 @@ def test_console_fleet_screen_live_within_two_seconds_and_enter_opens_the_craft(
         source.close()
 
 
+def test_fleet_screen_says_disconnected_while_the_server_is_away_and_catches_up(pg, db):
+    from ledger.tui.fleet import FleetApp  # noqa: PLC0415
+
+    source = DatabaseSource(db.url)
+
+    async def go():
+        app = FleetApp(source)
+        async with app.run_test(size=(120, 30)) as pilot:
+            t0 = time.perf_counter()
+            while not app.loaded.is_set() and time.perf_counter() - t0 < 120:
+                await pilot.pause(0.1)
+            assert app.loaded.is_set() and app.store_note is None
+            member = next(m for m in app.rows if m.endswith("craft=fresh"))
+            count = app.rows[member]["entries"]
+            pg.stop("fast")
+            try:
+                t0 = time.perf_counter()
+                while app.store_note is None and time.perf_counter() - t0 < 15:
+                    await pilot.pause(0.1)
+                assert app.store_note is not None and app.store_note.startswith("disconnected from the database")
+                assert "disconnected" in str(app.query_one("#fleet-head").render())
+            finally:
+                pg.start()
+            # written as the server comes back: a notification, or the re-listing on reconnection, brings it
+            PgStore(db.craft("fresh", user="bob")).append(mass_record("while away"))
+            t0 = time.perf_counter()
+            while (app.store_note is not None or app.rows[member]["entries"] == count) and time.perf_counter() - t0 < 20:
+                await pilot.pause(0.1)
+            assert app.store_note is None and app.rows[member]["entries"] == count + 1
+    try:
+        asyncio.run(go())
+    finally:
+        source.close()
+        pg.start()  # no-op when already running
+
+
 def test_superuser_edit_is_a_broken_row_even_with_a_cache(pg, db):
     source = open_source(db.url)
     before = {r["ledger"]: r for r in fleet.rows(source, workers=1)}

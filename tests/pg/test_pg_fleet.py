@@ -312,3 +312,23 @@ def test_superuser_edit_is_a_broken_row_even_with_a_cache(pg, db):
     assert all(r["state"] == "ok" for m, r in after.items() if m != target)
     proc = run_proc("fleet", "--fleet", db.url, "--print", env_extra={"COLUMNS": "140"})
     assert proc.returncode == 0 and "BROKEN" in proc.stdout
+
+
+def test_a_folder_fleet_never_imports_the_driver_and_a_database_fleet_table_no_console(tmp_path, db):
+    from tests.test_boundaries import loaded_after  # noqa: PLC0415
+
+    create(str(tmp_path / "one.json"), biprop(), by="test")
+    mods = loaded_after(f"""
+        import io, contextlib
+        from ledger.cli import main
+        with contextlib.redirect_stdout(io.StringIO()):
+            assert main(["fleet", "--fleet", {str(tmp_path)!r}, "--json"]) == 0
+    """)
+    assert "psycopg" not in mods and "ledger.store.pgfleet" not in mods
+    mods = loaded_after(f"""
+        import io, contextlib
+        from ledger.cli import main
+        with contextlib.redirect_stdout(io.StringIO()):
+            assert main(["fleet", "--fleet", {db.url!r}, "--json"]) == 0
+    """)
+    assert "psycopg" in mods and "textual" not in mods

@@ -163,6 +163,9 @@ def test_one_line_errors_for_a_craft_address_and_a_database_without_tables(pg, d
     pg.psql("CREATE DATABASE fleetempty OWNER pl_owner", db="postgres")
     proc = run_proc("fleet", "--fleet", f"postgresql://alice@/fleetempty?host={pg.sock}", "--json")
     assert proc.returncode == 2 and proc.stderr.count("\n") == 1 and "no propledger tables" in proc.stderr
+    proc = run_proc("fleet", "--fleet", "postgresql://alice:s3cret@/ledgers?host=/nonexistent", "--json")
+    assert proc.returncode == 2 and proc.stderr.count("\n") == 1 and "cannot reach the database" in proc.stderr
+    assert "s3cret" not in proc.stderr
 
 
 def test_heads_come_in_one_query_and_match_each_store(db):

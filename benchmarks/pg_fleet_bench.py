@@ -90,7 +90,7 @@ def main() -> None:
         print(f"{'':42} {'wall ms':>9} {'cpu ms':>8} {'baseline ms':>12} {'ratio':>7}")
         print(f"{'listing of ' + str(len(names)) + ' craft, one query':42} {1e3 * one[0]:>9.1f} {1e3 * one[1]:>8.1f} "
               f"{1e3 * base[0]:>12.1f} {base[0] / one[0]:>6.1f}x")
-        small = fill(cluster, "fleettable", args.table_craft, args.entries)
+        small = url if args.table_craft >= args.craft else fill(cluster, "fleettable", args.table_craft, args.entries)
         with tempfile.TemporaryDirectory() as cache:
             env = dict(os.environ, PYTHONPATH=ROOT, XDG_CACHE_HOME=cache)
             env.pop("PYTHONDONTWRITEBYTECODE", None)

@@ -12,8 +12,8 @@ from .helptext import about
 
 
 def register(sub) -> None:
-    p = sub.add_parser("fleet", **about("every craft in a folder of ledgers or a database on one screen: margins, lifetime, "
-                                         "open decisions, integrity"))
+    p = sub.add_parser("fleet", **about("every craft in a folder of ledgers or a database on one screen: margins, "
+                                         "lifetime, open decisions, integrity"))
     add_fleet_option(p)
     p.add_argument("--sort", choices=fleet.SORT_KEYS, default="attention",
                    help="row order, e.g. margin (lowest first); default attention (broken ledgers, then flagged "

@@ -2,8 +2,8 @@
 
 Each craft's part is that craft's own handover (``services.handover.assemble``, the window since its
 previous handover), so the fleet report and the single-craft report say the same thing; the summary
-row is its fleet row (``services.fleet``), from a folder or a database (``fleetsource``). Recording appends a handover entry to every readable craft
-and backs each up, exactly as ``propledger handover`` does for one. A ledger that cannot be read is
+row is its fleet row (``services.fleet``), from a folder or a database (``fleetsource``). Recording
+appends a handover entry to every readable craft and backs each up, exactly as ``propledger handover`` does for one. A ledger that cannot be read is
 listed with its error and nothing is written to it.
 """
 from __future__ import annotations

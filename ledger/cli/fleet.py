@@ -1,4 +1,5 @@
-"""``propledger fleet``: one row per craft over a folder of ledgers; the console's fleet screen in a terminal."""
+"""``propledger fleet``: one row per craft over a folder of ledgers or a PostgreSQL database; the console's
+fleet screen in a terminal."""
 from __future__ import annotations
 
 import os
@@ -11,8 +12,8 @@ from .helptext import about
 
 
 def register(sub) -> None:
-    p = sub.add_parser("fleet", **about("every craft in a folder of ledgers on one screen: margins, lifetime, "
-                                         "open decisions, integrity"))
+    p = sub.add_parser("fleet", **about("every craft in a folder of ledgers or a database on one screen: margins, "
+                                         "lifetime, open decisions, integrity"))
     add_fleet_option(p)
     p.add_argument("--sort", choices=fleet.SORT_KEYS, default="attention",
                    help="row order, e.g. margin (lowest first); default attention (broken ledgers, then flagged "
@@ -31,8 +32,9 @@ def register(sub) -> None:
 
 
 def add_fleet_option(p) -> None:
-    p.add_argument("--fleet", metavar="DIR",
-                   help=f"folder of ledger files (*.json), e.g. --fleet /ops/ledgers (else ${fleet.ENV})")
+    p.add_argument("--fleet", metavar="DIR|URL",
+                   help=f"folder of ledger files (*.json), e.g. --fleet /ops/ledgers, or every craft of a database, "
+                        f"e.g. --fleet postgresql://db.ops/ledgers (else ${fleet.ENV})")
 
 
 def margin_of(args) -> float:
@@ -45,7 +47,9 @@ def margin_of(args) -> float:
 
 
 def cmd_fleet(args) -> int:
-    source = fleet.FolderSource(fleet.resolve_folder(args.fleet))
+    from ..services.fleetsource import open_source  # noqa: PLC0415
+
+    source = open_source(fleet.resolve_folder(args.fleet))
     margin = margin_of(args)
     if not args.json and not args.print_only and sys.stdout.isatty() and sys.stdin.isatty():
         from ..tui.fleet import run_fleet  # noqa: PLC0415 - textual only when the screen opens

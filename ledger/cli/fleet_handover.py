@@ -1,4 +1,5 @@
-"""``propledger handover --fleet DIR``: one handover report over every craft of a folder of ledgers."""
+"""``propledger handover --fleet DIR|URL``: one handover report over every craft of a folder of ledgers or of
+a PostgreSQL database."""
 from __future__ import annotations
 
 import json
@@ -10,13 +11,15 @@ from ..services import fleet, fleet_handover
 from .common import plain, warn
 
 
-def _out_path(path: str | None, source: fleet.FolderSource, force: bool) -> str | None:
+def _out_path(path: str | None, source, force: bool) -> str | None:
     """--out checked against every ledger of the fleet (never a ledger, a side file or into the folder)."""
     if path is None:
         return None
     from ..services.outpaths import checked  # noqa: PLC0415
 
     target = checked(path, None, force=force)
+    if source.kind != "folder":  # database craft: no file to clash with
+        return target
     if os.path.dirname(target) == os.path.realpath(source.folder):
         raise InputError(f"--out: {target!r} is in the fleet folder (it would be read as a ledger or clash with "
                          "a side file); choose a file outside it; nothing was written")
@@ -26,11 +29,13 @@ def _out_path(path: str | None, source: fleet.FolderSource, force: bool) -> str 
 
 
 def cmd_fleet_handover(args) -> int:
-    source = fleet.FolderSource(args.fleet)
+    from ..services.fleetsource import open_source  # noqa: PLC0415
+
+    source = open_source(args.fleet)
     out = _out_path(args.out, source, args.force)
     report = fleet_handover.assemble(source, from_name=args.from_name, to_name=args.to_name)
     if not args.no_record:
-        fleet_handover.record(report, note=args.note)
+        fleet_handover.record(report, note=args.note, source=source)
     if args.format == "json":
         text = json.dumps(report, indent=2, allow_nan=False, default=str) + "\n"
     else:

@@ -30,9 +30,10 @@ def register(sub) -> None:
     p.add_argument("--no-record", action="store_true",
                    help="preview only: append no handover entry and write no backup, e.g. before the shift ends")
     p.add_argument("--note", help="free text kept with the handover entry, e.g. 'quiet shift'")
-    p.add_argument("--fleet", metavar="DIR",
-                   help="one report over every ledger in DIR, each since its own last handover (and recorded in "
-                        "each unless --no-record), e.g. --fleet /ops/ledgers")
+    p.add_argument("--fleet", metavar="DIR|URL",
+                   help="one report over every ledger in DIR (or every craft of a postgresql:// database), each "
+                        "since its own last handover (and recorded in each unless --no-record), e.g. --fleet "
+                        "/ops/ledgers")
     p.set_defaults(func=cmd_handover)
 
 

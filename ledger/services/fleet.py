@@ -102,7 +102,8 @@ def resolve_folder(folder: str | None) -> str:
     """--fleet, else PROPLEDGER_FLEET; one clear error when neither is given."""
     chosen = folder or os.environ.get(ENV)
     if not chosen:
-        raise InputError(f"fleet: give the folder of ledger files with --fleet DIR (or set {ENV})")
+        raise InputError(f"fleet: give the folder of ledger files with --fleet DIR, or a database with "
+                         f"--fleet postgresql://host/db (or set {ENV})")
     return chosen
 
 
@@ -211,18 +212,21 @@ def _worker_init() -> None:
 
 
 # --- many craft --------------------------------------------------------------------------------
-def compute(paths: Sequence[str], workers: int = WORKERS, context: str | None = None) -> list[dict[str, Any]]:
-    """Rows for ``paths`` in the same order, in ``workers`` processes when there are enough of them."""
+def compute(paths: Sequence[str], workers: int = WORKERS, context: str | None = None,
+            row_fn: Callable[[str], dict[str, Any]] | None = None) -> list[dict[str, Any]]:
+    """Rows for ``paths`` in the same order, in ``workers`` processes when there are enough of them
+    (``row_fn``: the source's picklable row function, ``fleetsource.row_function``; files by default)."""
+    row_fn = row_fn or row_for_path
     if not paths:
         return []
     if workers <= 1 or len(paths) < SERIAL_BELOW:
-        return [row_for_path(p) for p in paths]
+        return [row_fn(p) for p in paths]
     import multiprocessing  # noqa: PLC0415
 
     ctx = multiprocessing.get_context(context) if context else None
     chunk = max(1, len(paths) // (workers * 8))
     with ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_worker_init) as pool:
-        return list(pool.map(row_for_path, paths, chunksize=chunk))
+        return list(pool.map(row_fn, paths, chunksize=chunk))
 
 
 def rows(source: FolderSource, *, workers: int = WORKERS, use_cache: bool = True, context: str | None = None,
@@ -243,7 +247,7 @@ def rows(source: FolderSource, *, workers: int = WORKERS, use_cache: bool = True
             todo.append(m)
     if progress:
         progress(len(out), len(members))
-    for m, row in zip(todo, compute(todo, workers, context)):
+    for m, row in zip(todo, compute(todo, workers, context, getattr(source, "row_function", None))):
         out[m] = row
     if use_cache and todo:
         keep = {m: {"key": prints[m], "row": out[m]} for m in members
@@ -265,8 +269,8 @@ def refresh(source: FolderSource, member: str) -> dict[str, Any]:
     """One craft's row again (the live screen, after its file changed), in this process, and cached."""
     from . import fleetcache  # noqa: PLC0415
 
-    key = source.fingerprint(member)
-    row = row_for_path(member)
+    key = source.fingerprint(member)  # read before the row: it can be older than the row, never newer
+    row = (getattr(source, "row_function", None) or row_for_path)(member)
     if key is not None and row["state"] != "unreadable":
         fleetcache.update(source.cache_base(), {member: {"key": key, "row": row}})
     return row

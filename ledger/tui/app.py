@@ -347,8 +347,8 @@ def run_console(args) -> int:
     app = make_app(path, bool(getattr(args, "demo", False)))
     app.run()
     if app.return_value == "fleet" and app.fleet_folder:
-        from ..services.fleet import FolderSource  # noqa: PLC0415
+        from ..services.fleetsource import open_source  # noqa: PLC0415
         from .fleet import run_fleet  # noqa: PLC0415
 
-        return run_fleet(FolderSource(app.fleet_folder))
+        return run_fleet(open_source(app.fleet_folder))
     return int(app.return_code or 0)

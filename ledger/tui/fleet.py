@@ -6,6 +6,8 @@ worker thread (``services.fleet.refresh``), so a write to any craft shows in its
 second. The first load computes the cold rows in a separate ``propledger fleet --json`` process, which
 shares them between worker processes (forking worker processes from this one, which runs threads, is not
 safe, and spawned ones stalled under the console). An unreadable or broken ledger is a row that says so.
+Over a database (``fleetsource.DatabaseSource``) the stamps are the per-craft counts of the server's
+notifications, kept by a listener thread: the poll reads no table, and only a notified craft is read again.
 """
 from __future__ import annotations
 
@@ -17,7 +19,7 @@ from textual.app import App, ComposeResult
 from textual.binding import Binding
 from textual.widgets import DataTable, Static
 
-from ..services import fleet
+from ..services import fleet, fleetsource
 from ..services.views import CAUTION
 from .widgets.keybar import KeyBar
 
@@ -71,8 +73,9 @@ def cold_rows(source: fleet.FolderSource) -> list[dict[str, Any]]:
 
         root = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
         env = dict(os.environ, PYTHONPATH=os.pathsep.join(p for p in (root, os.environ.get("PYTHONPATH")) if p))
-        proc = subprocess.run([sys.executable, "-m", "ledger", "fleet", "--fleet", source.folder, "--json",
-                               "--sort", "name"], capture_output=True, env=env, stdin=subprocess.DEVNULL)
+        env[fleet.ENV] = fleetsource.spec_of(source)  # not on the command line: a database address may hold a password
+        proc = subprocess.run([sys.executable, "-m", "ledger", "fleet", "--json", "--sort", "name"],
+                              capture_output=True, env=env, stdin=subprocess.DEVNULL)
         if proc.returncode == 0:
             try:
                 return json.loads(proc.stdout)["craft"]
@@ -101,6 +104,7 @@ class FleetApp(App):
         self.loaded = threading.Event()
         self._busy = False
         self._wide: bool | None = None
+        self.store_note: str | None = None  # "disconnected ..." while a database fleet's server is away
 
     def compose(self) -> ComposeResult:
         yield Static("Fleet: reading the ledgers...", id="fleet-head")
@@ -118,6 +122,9 @@ class FleetApp(App):
 
     # --- data in ------------------------------------------------------------------------------------
     def _stamps(self) -> dict[str, Any]:
+        live = getattr(self.source, "stamps", None)  # a database: from its notifications, no query
+        if live is not None:
+            return live()
         return {m: self.source.stamp(m) for m in self.source.members()}
 
     def _load_all(self) -> None:
@@ -133,6 +140,12 @@ class FleetApp(App):
     def poll(self) -> None:
         if self._busy or not self.loaded.is_set():
             return
+        note = self.source.live_note() if hasattr(self.source, "live_note") else None
+        if note != self.store_note:
+            self.store_note = note
+            self.redraw()
+            if note:
+                self.notify(note, severity="warning", timeout=8)
         try:
             stamps = self._stamps()
         except Exception:  # noqa: BLE001 - the folder went away for a moment: try again next time
@@ -184,7 +197,7 @@ class FleetApp(App):
         self.query_one("#fleet-head").update(
             f"Fleet {self.source.label} · {s['craft']} craft · {s['attention']} need attention · "
             f"{s['broken']} broken · {s['unreadable']} unreadable · margin < {self.margin:g} m/s · "
-            f"sort {self.sort}{filt}")
+            f"sort {self.sort}{filt}" + (f" · {self.store_note}" if self.store_note else ""))
         self.show_why()
 
     def selected_row(self) -> dict[str, Any] | None:
@@ -233,7 +246,7 @@ class FleetApp(App):
         if row["state"] == "unreadable":
             self.notify(f"cannot open it: {row['error']}", severity="error", timeout=10)
             return
-        self.exit(("open", row["ledger"]))
+        self.exit(("open", fleetsource.address(self.source, row["ledger"])))
 
     def action_cycle_sort(self) -> None:
         keys = fleet.SORT_KEYS
@@ -266,7 +279,7 @@ def run_fleet(source: fleet.FolderSource, *, margin: float = fleet.DEFAULT_MARGI
             return 0
         margin, sort, only_attention = app.margin, app.sort, app.only_attention
         craft = make_app(choice[1], demo)
-        craft.fleet_folder = source.folder
+        craft.fleet_folder = fleetsource.spec_of(source)
         craft.run()
 
 

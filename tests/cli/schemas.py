@@ -186,7 +186,8 @@ FLEET = {
     "$schema": "https://json-schema.org/draft/2020-12/schema", "type": "object",
     "required": ["fleet", "source", "at", "margin_m_s", "sort", "attention_only", "summary", "craft", "caution"],
     "properties": {
-        "fleet": STR, "source": {"type": "string", "enum": ["folder"]}, "at": ISO, "margin_m_s": NUM,
+        "fleet": STR, "source": {"type": "string", "enum": ["folder", "database"]}, "at": ISO,
+        "margin_m_s": NUM,
         "sort": STR, "attention_only": {"type": "boolean"},
         "summary": {"type": "object", "required": ["craft", "attention", "broken", "unreadable"],
                     "additionalProperties": {"type": "integer"}},

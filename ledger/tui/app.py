@@ -63,7 +63,7 @@ def console_theme():
 
 
 FLEET_KEY = "v"
-"""Opens the fleet screen when a fleet folder is configured; a palette command too, not in the key bar
+"""Opens the fleet screen when a fleet (folder or database) is configured; a palette command too, not in the key bar
 (which holds the single-craft actions on two lines at 80 columns)."""
 
 
@@ -286,8 +286,8 @@ class LedgerConsole(App):
     def open_fleet(self) -> None:
         """Leave this craft for the fleet screen (``run_console`` opens it), when a fleet is configured."""
         if not self.fleet_folder:
-            self.notify("no fleet configured: set PROPLEDGER_FLEET to the folder of ledgers, or run "
-                        "'propledger fleet --fleet DIR'", severity="warning", timeout=8)
+            self.notify("no fleet configured: set PROPLEDGER_FLEET to a folder of ledgers or a "
+                        "postgresql:// database, or run 'propledger fleet --fleet DIR|URL'", severity="warning", timeout=8)
             return
         self.exit("fleet")
 
@@ -333,7 +333,7 @@ class LedgerConsole(App):
         for a in actions.ACTIONS + actions.OFF_BAR:
             yield SystemCommand(f"{a.title}  ({a.key_display or a.key})", a.help, getattr(self.main, f"action_{a.name}"))
         yield SystemCommand(f"Open the fleet screen  ({FLEET_KEY})",
-                            "every craft of the fleet folder ($PROPLEDGER_FLEET) by attention; Enter opens one",
+                            "every craft of the fleet ($PROPLEDGER_FLEET: a folder or a database) by attention; Enter opens one",
                             self.open_fleet)
 
 

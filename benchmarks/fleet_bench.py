@@ -124,11 +124,14 @@ def clear(folder: str, side: bool, fleet_cache: bool, only: list[str] | None = N
 
 
 def measure(args: list[str]) -> dict:
+    load = os.getloadavg()[0]
     proc = subprocess.run([sys.executable, "-c", RUNNER, *args], capture_output=True, text=True, env=env(),
                           cwd=ROOT)
     if proc.returncode != 0:
         raise SystemExit(proc.stderr)
-    return json.loads(proc.stdout.strip().splitlines()[-1])
+    out = json.loads(proc.stdout.strip().splitlines()[-1])
+    out["load"] = (load + os.getloadavg()[0]) / 2  # the machine's load average around the run
+    return out
 
 
 def timed_cli(args: list[str]) -> float:
@@ -173,12 +176,14 @@ def main() -> None:
     print("wall s of one `propledger fleet --json` process; cpu s = its processor time with its workers;")
     print("MB = peak proportional set size (PSS, shared pages split) of the process and its workers, sampled every")
     print("0.1 s; one-by-one = `status --json` once per craft (timed on a sample, scaled to the fleet)")
-    print("  craft  entries  state      wall s   cpu s      MB  one-by-one s   ratio")
+    print("load = 1-minute load average around the run (2 cores: above 2, the wall time waits for the cores)")
+    print("  craft  entries  state      wall s   cpu s      MB  load  one-by-one s   ratio")
     for r in results:
         for state, one in (("cold", r["one_cold"]), ("rows cold", r["one_warm"]), ("cached", r["one_warm"])):
             m = r[state.replace(" ", "_")]
             mb = m["peak_kb"] / 1024
             print(f"  {r['craft']:5d}  {r['entries']:7d}  {state:9s} {m['wall']:7.2f} {m['cpu']:7.1f} {mb:7.0f} "
+                  f"{m['load']:5.1f} "
                   f"{one:13.1f} {one / m['wall']:6.1f}x")
         print(f"  {r['craft']:5d}  {r['entries']:7d}  text table (whole command, cached) {r['table_s']:.2f} s")
     print("targets: cached <= 2 s; cold <= 30 s on 2 cores; memory <= 1 GB")

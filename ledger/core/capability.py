@@ -13,6 +13,7 @@ from typing import Sequence
 import numpy as np
 
 from .craft import Craft
+from .lastaxis import any_last, argmax_last, argmin_last, max_last, min_last
 
 EPS_KG = 1e-9
 
@@ -60,7 +61,7 @@ def dv_available_many(craft: Craft, mass, remaining, engine: int, ve=None, frac=
     # The limiting tank is picked before the floor at zero, so an overdrawn tank is named rather than
     # the first of several empty ones; the draw itself is floored (identical minimum).
     per_feed = (remaining - craft.residuals())[..., fed] / frac[..., fed]
-    k = np.argmin(per_feed, axis=-1)
+    k = argmin_last(per_feed)
     x = np.maximum(0.0, np.take_along_axis(per_feed, k[..., None], axis=-1)[..., 0])
     ok = (mass > 0) & (mass - x > 0)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -109,14 +110,15 @@ def dv_free_many(craft: Craft, mass, remaining, engine: int, ve=None, frac=None)
     flat_short = flat & (alpha < -EPS_KG)
     lo_bound = np.where(lower, bound, -np.inf)
     up_bound = np.where(upper, bound, np.inf)
-    has_lower = lower.any(axis=-1)
-    e_min = np.where(has_lower, lo_bound.max(axis=-1), 0.0)
-    e_max = np.minimum(np.where(upper.any(axis=-1), up_bound.min(axis=-1), 1.0), 1.0)
-    limiting = np.where(has_lower, lo_bound.argmax(axis=-1), -1)
+    has_lower = any_last(lower)  # column by column: same answers, ~20x faster over a few tanks (lastaxis)
+    e_min = np.where(has_lower, max_last(lo_bound), 0.0)
+    e_max = np.minimum(np.where(any_last(upper), min_last(up_bound), 1.0), 1.0)
+    limiting = np.where(has_lower, argmax_last(lo_bound), -1)
     empty = (e_min > e_max + 1e-12) | (e_min > 1.0 + 1e-12)
-    limiting = np.where(empty & (e_min <= 1.0), up_bound.argmin(axis=-1), limiting)
-    limiting = np.where(flat_short.any(axis=-1), flat_short.argmax(axis=-1), limiting)
-    met = ~empty & ~flat_short.any(axis=-1) & (mass > 0)
+    limiting = np.where(empty & (e_min <= 1.0), argmin_last(up_bound), limiting)
+    short = any_last(flat_short)
+    limiting = np.where(short, argmax_last(flat_short), limiting)
+    met = ~empty & ~short & (mass > 0)
     limiting = np.where(mass > 0, limiting, -1)
     with np.errstate(divide="ignore", invalid="ignore"):
         dv = np.maximum(0.0, -ve[..., engine] * np.log(np.clip(e_min, 1e-300, 1.0)))

@@ -13,6 +13,7 @@ import numpy as np
 
 from .capability import EPS_KG, dv_available_many, dv_free_many, fly_many
 from .craft import Craft
+from .lastaxis import all_last
 from .montecarlo import Samples
 
 
@@ -36,11 +37,11 @@ def check_samples(craft: Craft, s: Samples, engine_id: str, dv: float,
     """``capability.check`` for every sample: fly commitments, the burn, then the reserves."""
     m1, r1, _ = fly_many(craft, s.mass_kg, s.remaining_kg, list(commitments) + [(engine_id, dv)], ve=s.ve, frac=s.frac)
     _, r2, _ = fly_many(craft, m1, r1, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve, frac=s.frac)
-    intact = np.all(r2 - craft.residuals() >= -EPS_KG, axis=1)
+    intact = all_last(r2 - craft.residuals() >= -EPS_KG)
     e = craft.engine_index(engine_id)
     free, _, _ = dv_free_many(craft, m1, r1, e, ve=s.ve, frac=s.frac)
     avail, _ = dv_available_many(craft, m1, r1, e, ve=s.ve, frac=s.frac)
-    burn_ok = np.all(r1 - craft.residuals() >= -EPS_KG, axis=1)
+    burn_ok = all_last(r1 - craft.residuals() >= -EPS_KG)
     return SampleCheck(intact, np.where(intact & burn_ok, np.minimum(free, avail), 0.0))
 
 
@@ -60,7 +61,7 @@ def reserves_intact(craft: Craft, s: Samples) -> np.ndarray:
     """(S,) bool: the reserves can be flown from each sample's state as it stands."""
     _, r, _ = fly_many(craft, s.mass_kg, s.remaining_kg, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve,
                        frac=s.frac)
-    return np.all(r - craft.residuals() >= -EPS_KG, axis=1)
+    return all_last(r - craft.residuals() >= -EPS_KG)
 
 
 def outage_samples(craft: Craft, s: Samples) -> list[tuple[object, np.ndarray, np.ndarray]]:

@@ -42,8 +42,11 @@ def digest(record: Mapping[str, Any], *, new: bool = False) -> str:
 
 def _digest_loaded(record: Mapping[str, Any]) -> str:
     """``digest`` for records parsed from the file: orjson refuses NaN and infinity when it parses, so the
-    finite check (three quarters of the cost of ``digest``) cannot fail and is skipped."""
-    body = {k: v for k, v in record.items() if k != "hash"}
+    finite check (three quarters of the cost of ``digest``) cannot fail and is skipped. A copy less its
+    hash (one C-level copy) gives the same canonical bytes as a comprehension over the keys (sorted when
+    written), at a fraction of its cost: the chain check of a 2,000-entry ledger is a few milliseconds."""
+    body = record.copy() if type(record) is dict else dict(record)
+    body.pop("hash", None)
     return hashlib.sha256(orjson.dumps(body, option=orjson.OPT_SORT_KEYS)).hexdigest()
 
 

@@ -505,7 +505,9 @@ def _impulse_bit(src: str, node: Any, where: str, thrust: float, performance: Pe
 
 
 def load_craft(path: str) -> Craft:
-    return craft_from_document(load_yaml(path), path)
+    """The craft of a craft file, or of a bundled scenario file: its ``history`` (the demo's invented past,
+    loaded only by ``demo``/``scenario``) is allowed there and not recorded."""
+    return craft_from_document(load_yaml(path), path, extra_top=("history",))
 
 
 # --- the keys a craft file may hold, level by level -------------------------------------------------

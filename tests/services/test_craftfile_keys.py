@@ -121,3 +121,12 @@ def test_init_refuses_an_unknown_key_with_exit_2_and_writes_nothing(tmp_path):
     assert len(lines) == 1 and lines[0].startswith("propledger: error: craft file ")
     assert "unknown key 'operation' at top level (did you mean operations?)" in lines[0]
     assert os.listdir(tmp_path) == ["x.yaml"]
+
+
+def test_a_scenario_file_still_makes_a_craft_for_init():
+    """`init --craft scenarios/X.yaml` (docs/postgresql.md) reads the craft and leaves the demo history out."""
+    from ledger.services.craftfile import load_craft, load_yaml  # noqa: PLC0415
+
+    path = os.path.join(ROOT, "scenarios", "leo-smallsat.yaml")
+    assert "history" in load_yaml(path)
+    assert load_craft(path).engines

@@ -438,6 +438,7 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
     rows_all = _rows_by_engine(model, list(model.perf), temps) if dep.any() else {}
 
     direction = _one_direction(model, steps) if dep.any() else None
+    rel = None
 
     def props(e, sel):
         return rho_all[sel], pv_all[sel], {t: (flat, off[sel]) for t, (flat, off) in rows_all[e].items()}
@@ -467,9 +468,11 @@ def replay_blowdown(craft: Craft, model: Model, events: Sequence[Entry], temps: 
         last_m = np.where(moved, m_before, last_m)
         change = np.max(np.abs(new_x - x)[dep])
         done = change <= TOL_REL * max(1.0, float(np.max(np.abs(new_x[dep]))))
-        if not done and direction is not None:
-            new_x = _newton(model, direction, x, new_x, dep, timed, bydv, eng, m_before, r_before, temps,
-                            steps.amount, rho_all, pv_all, rows_all)
+        if not done and direction is not None and passes > 1:  # slopes at states the first pass corrected
+            if rel is None:
+                rel = _slopes(model, direction, dep, bydv, eng, m_before, r_before, temps, steps.amount, rho_all,
+                              pv_all, rows_all)
+            new_x = _newton(x, new_x, dep, rel)
         x = new_x
         a[dep], b[dep] = 1.0, -x[dep]
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -521,22 +524,13 @@ def _one_direction(model: Model, steps: Steps) -> np.ndarray | None:
     return np.asarray(rows[0], dtype=float)
 
 
-def _newton(model: Model, direction: np.ndarray, x: np.ndarray, fx: np.ndarray, dep: np.ndarray,
-            timed: np.ndarray, bydv: np.ndarray, eng: np.ndarray, m_before: np.ndarray, r_before: np.ndarray,
-            temps: np.ndarray, amount: np.ndarray, rho_all: np.ndarray, pv_all: np.ndarray,
-            rows_all: dict) -> np.ndarray:
-    """The next iterate of the fixed point x = F(x) by a Newton step instead of x = F(x).
-
-    Why: a plain pass only carries a change one dependency further, so its error falls by a constant factor
-    per pass (about 25 on a late-life blowdown history: eight passes). Here each draw k depends on the extra
-    propellant c_k drawn before it (along the shared feed row), with slope h_k = dx_k/dc_k taken by a
-    finite difference of the draw's first-order form (flow or ve at the starting pressure; the slope need only
-    be close: the pass after checks F(x) itself). The correction solves d_k + h_k·c_k with c_{k+1} = c_k +
-    δ_k: an affine recurrence, one prefix scan (``replay.mass_scan``). Other draws (constant engines' burns
-    scaling with the mass) are left to the following passes, as before."""
-    from .replay import mass_scan  # noqa: PLC0415 - replay is imported above; kept beside its one use
-
-    h = np.zeros(len(x))
+def _slopes(model: Model, direction: np.ndarray, dep: np.ndarray, bydv: np.ndarray, eng: np.ndarray,
+            m_before: np.ndarray, r_before: np.ndarray, temps: np.ndarray, amount: np.ndarray,
+            rho_all: np.ndarray, pv_all: np.ndarray, rows_all: dict) -> np.ndarray:
+    """Per entry, d ln(x_k)/dc_k: how its draw changes (relatively) with extra propellant c_k drawn before it
+    along the shared feed row, by a finite difference of the draw's first-order form (flow, or the rocket
+    equation at ve, at the starting pressure); 0 for entries that are not integrated."""
+    rel = np.zeros(len(dep))
     for e in model.perf:
         if not model.pressurised(e):
             continue
@@ -549,17 +543,30 @@ def _newton(model: Model, direction: np.ndarray, x: np.ndarray, fx: np.ndarray, 
         zero = np.zeros(len(sel))
         p0 = model.feed_pressure(e, r0, zero, tt, rho, pv, rows)  # at the start of the firing
         p1 = model.feed_pressure(e, r0 - eps * direction, zero, tt, rho, pv, rows)
-        is_dv = bydv[sel]
         with np.errstate(divide="ignore", invalid="ignore"):
-            f0, f1 = model.flow(e, p0), model.flow(e, p1)
-            g_t = fx[sel] * (f1 / f0 - 1.0) / eps
+            g_t = (model.flow(e, p1) / model.flow(e, p0) - 1.0) / eps
             m0 = m_before[sel]
-            ve0, ve1 = model.ve(e, p0), model.ve(e, p1)
-            x0 = -m0 * np.expm1(-amount[sel] / ve0)
-            x1 = -(m0 - eps) * np.expm1(-amount[sel] / ve1)
-            g_v = fx[sel] * (x1 / x0 - 1.0) / eps
-        g = np.where(is_dv, g_v, g_t)
-        h[sel] = np.where(np.isfinite(g), g, 0.0)
+            x0 = -m0 * np.expm1(-amount[sel] / model.ve(e, p0))
+            x1 = -(m0 - eps) * np.expm1(-amount[sel] / model.ve(e, p1))
+            g_v = (x1 / x0 - 1.0) / eps
+        g = np.where(bydv[sel], g_v, g_t)
+        rel[sel] = np.where(np.isfinite(g), g, 0.0)
+    return rel
+
+
+def _newton(x: np.ndarray, fx: np.ndarray, dep: np.ndarray, rel: np.ndarray) -> np.ndarray:
+    """The next iterate of the fixed point x = F(x) by a Newton step instead of x = F(x).
+
+    Why: a plain pass only carries a change one dependency further, so its error falls by a constant factor
+    per pass (about 25 on a late-life blowdown history: eight passes). Here each draw k depends on the extra
+    propellant c_k drawn before it (along the shared feed row) with slope h_k = dx_k/dc_k = x_k·rel_k
+    (``_slopes``, taken once: the slope need only be close, the pass after checks F(x) itself). The
+    correction δ solves δ_k = d_k + h_k·c_k with c_{k+1} = c_k + δ_k and d = F(x) - x: an affine recurrence,
+    one prefix scan (``replay.mass_scan``). Other draws (constant engines' burns scaling with the mass) are
+    left to the following passes, as before."""
+    from .replay import mass_scan  # noqa: PLC0415 - replay is imported above; kept beside its one use
+
+    h = fx * rel
     d = np.where(dep, fx - x, 0.0)
     if not np.all(1.0 + h > 0.0):
         return fx

@@ -63,3 +63,37 @@ def test_a_cached_status_reads_without_sampler_lock_or_tinydb(tmp_path):
             main(['--ledger', {str(ledger)!r}, 'status', '--json'])
     """)
     assert [m for m in ("ledger.core.montecarlo", "ledger.core.sampled", "tinydb", "filelock") if m in mods] == []
+
+
+BLOWDOWN_CRAFT = """craft: {name: b, dry_mass: 100 kg}
+tanks:
+  - {id: t, fluid: hydrazine, load: 50 kg, volume: 70 L, pressurant: {gas: helium, pressure: 22 bar, temperature: 20 degC}}
+engines:
+  - id: e
+    performance: {pressure: [5.5 bar, 22 bar], thrust: [0.3 N, 1.0 N], isp: [205 s, 231 s]}
+    feeds: {t: 1}
+"""
+
+
+def test_a_cached_status_loads_only_its_own_command_modules(tmp_path):
+    # A status registers the command modules up to the one that holds it (ledger.cli.build_parser), so the
+    # fleet's process pool, the backup code and the other commands' modules stay unloaded; the blowdown
+    # replay finds distinct values without np.unique, which imports numpy's masked arrays (numpy 2).
+    craft = tmp_path / "c.yaml"
+    craft.write_text(BLOWDOWN_CRAFT)
+    ledger = tmp_path / "l.json"
+    env = dict(os.environ, PYTHONPATH=ROOT)
+    for argv in (["init", "--craft", str(craft)], ["use", "--engine", "e", "--duration", "60 s"],
+                 ["burn", "--engine", "e", "--dv", "0.5"], ["status", "--json"]):
+        subprocess.run([sys.executable, "-m", "ledger", "--ledger", str(ledger), *argv], cwd=ROOT, check=True,
+                       capture_output=True, env=env)
+    for argv in (["status", "--json"], ["status"]):
+        mods = loaded_after(f"""
+            import io, contextlib
+            from ledger.cli import main
+            with contextlib.redirect_stdout(io.StringIO()):
+                assert main(['--ledger', {str(ledger)!r}, *{argv!r}]) == 0
+        """)
+        off = ("ledger.services.fleet", "ledger.cli.fleet", "ledger.cli.demo", "ledger.cli.integrity",
+               "ledger.store.backup", "concurrent.futures", "multiprocessing", "numpy.ma")
+        assert [m for m in off if m in mods] == [], argv

@@ -232,3 +232,64 @@ def test_zero_amounts_and_an_empty_history_replay_cleanly():
     assert rep.mass_kg == c.initial_mass_kg and np.all(np.isfinite(rep.dv)) and np.all(np.isfinite(flown.ve_event))
     rep, _ = bd.replay_blowdown(c, m, [], bd.event_temperatures(c, [], []))
     assert rep.mass_kg == c.initial_mass_kg
+
+
+def _entry_by_entry(c, m, ev, temps):
+    """The plain sequential loop: each firing integrated from the state the previous ones left."""
+    mass, rem = c.initial_mass_kg, c.loads()
+    frac = c.feed_fractions()
+    for k, e in enumerate(ev):
+        i = c.engine_index(e.get("engine"))
+        if e.get("propellant") is not None:
+            x = e.get("propellant")
+        elif e.get("duration") is not None:
+            x = float(bd.timed_draw(m, i, rem[None, :], temps[k:k + 1], e.get("duration"))[0])
+        else:
+            x = float(bd.dv_draw(m, i, mass, rem[None, :], temps[k:k + 1], e.get("dv"))[0])
+        mass, rem = mass - x, rem - x * frac[i]
+    return mass, rem
+
+
+def test_newton_passes_match_the_loop_in_fewer_passes_than_plain_ones(monkeypatch):
+    # Late-life history with strong feedback (long firings, two tanks fed alike, a gauge temperature
+    # change): the accelerated fixed point must land on the sequential loop's figures (the stop rule is
+    # unchanged: |F(x) - x| <= TOL_REL), in fewer passes than the plain passes need.
+    c = craft(tank(tid="a"), tank(pressure_pa=21.5e5, tid="b"))
+    m = bd.Model(c)
+    ev = []
+    for i in range(60):
+        ev.append(Entry(2 * i + 1, "use", 2.0 * i, 0.0, "x", "", {"engine": "mono", "duration": 4000.0}))
+        ev.append(Entry(2 * i + 2, "burn", 2.0 * i + 1, 0.0, "x", "", {"engine": "mono", "dv": 0.6}))
+    temps = bd.event_temperatures(c, [e.at for e in ev], [(0, 50.0, 300.0), (1, 70.0, 296.0)])
+    rep, flown = bd.replay_blowdown(c, m, ev, temps)
+    mass, rem = _entry_by_entry(c, m, ev, temps)  # its step counts differ a little: 1e-12 relative
+    assert rep.mass_kg == pytest.approx(mass, rel=1e-11)
+    assert np.allclose(rep.remaining_kg, rem, rtol=1e-10, atol=0)
+    monkeypatch.setattr(bd, "_one_direction", lambda *a: None)
+    plain, flown_plain = bd.replay_blowdown(c, m, ev, temps)
+    assert np.allclose(plain.remaining, rep.remaining, rtol=0, atol=1e-9)
+    assert flown.passes < flown_plain.passes
+
+
+def test_engines_on_different_feed_rows_keep_the_plain_passes():
+    # Two table engines on different tanks: no one direction, so the plain passes run (and still match the loop).
+    c = craft(tank(tid="a"), tank(tid="b"))
+    mono2 = replace(c.engines[0], id="mono2", feeds={"b": 1.0})
+    c = replace(c, engines=(replace(c.engines[0], feeds={"a": 1.0}), mono2))
+    m = bd.Model(c)
+    ev = [Entry(k + 1, "use", float(k), 0.0, "x", "", {"engine": ("mono", "mono2")[k % 2], "duration": 3000.0})
+          for k in range(30)]
+    temps = bd.event_temperatures(c, [e.at for e in ev], [])
+    assert bd._one_direction(m, bd.steps_from_events(c, ev)) is None
+    rep, _ = bd.replay_blowdown(c, m, ev, temps)
+    mass, rem = _entry_by_entry(c, m, ev, temps)
+    assert np.allclose(rep.remaining_kg, rem, rtol=1e-10, atol=0)
+
+
+@pytest.mark.parametrize("values", [[293.15] * 5, [300.0, 290.0, 300.0, 310.0, 290.0], []])
+def test_distinct_equals_numpy_unique(values):
+    # Reference: numpy.unique(return_inverse=True) (numpy version in the message).
+    a = np.array(values, dtype=float)
+    got, inv = bd.distinct(a)
+    want, want_inv = np.unique(a, return_inverse=True)
+    assert np.array_equal(got, want) and np.array_equal(inv, want_inv.ravel()), f"numpy {np.__version__}"

@@ -167,7 +167,7 @@ def before(snap: Snapshot, seq: int, plan: Any = None) -> Snapshot:
     """The ledger as it stood just before entry ``seq`` was appended: its earlier entries, replayed. With
     ``plan`` (an effective plan entry), that plan reads as given instead of as it stood then: a burn's plan
     warnings are judged against the plan as corrected, never against content a correction has replaced."""
-    from ..core.entries import CORRECT, resolve  # noqa: PLC0415
+    from ..core.entries import CORRECT, _root, resolve  # noqa: PLC0415 - _root: corrections back to their entry
     from ..core.replay import replay  # noqa: PLC0415
     from .ledger import assemble  # noqa: PLC0415
 
@@ -179,14 +179,6 @@ def before(snap: Snapshot, seq: int, plan: Any = None) -> Snapshot:
     resolved = resolve(entries)
     return assemble(snap.path, snap.craft, snap.meta, [], entries, resolved, replay(snap.craft, resolved.events),
                     None)
-
-
-def _root(seq: int, by_seq: Mapping[int, Any]) -> int:
-    from ..core.entries import CORRECT  # noqa: PLC0415
-
-    while by_seq[seq].kind == CORRECT:
-        seq = int(by_seq[seq].data["entry"])
-    return seq
 
 
 def corrected_warnings(snap: Snapshot, burn_seq: int, corrected: Any) -> list[str]:

@@ -167,11 +167,7 @@ class PgStore:
             try:
                 conn.execute("SELECT 1")
             except psycopg.Error:
-                try:
-                    conn.close()
-                except psycopg.Error:
-                    pass
-                self._conn = None
+                self._drop(conn)
                 conn = self._connection()
         return conn
 
@@ -515,11 +511,15 @@ class PgStore:
             if conn.info.transaction_status != psycopg.pq.TransactionStatus.IDLE:
                 conn.execute("ROLLBACK")
         except psycopg.Error:
-            try:
-                conn.close()
-            except psycopg.Error:
-                pass
-            self._conn = None
+            self._drop(conn)
+
+    def _drop(self, conn: psycopg.Connection) -> None:
+        """Forget a connection that failed (closing it may fail too); the next use opens a new one."""
+        try:
+            conn.close()
+        except psycopg.Error:
+            pass
+        self._conn = None
 
     @contextmanager
     def locked(self) -> Iterator[None]:

@@ -11,7 +11,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .capability import EPS_KG, dv_available_many, dv_free_many, fly_many
+from .capability import EPS_KG, fly_many
 from .craft import Craft
 from .lastaxis import all_last, any_last, argmin_last, max_last, min_last
 from .montecarlo import Samples
@@ -39,8 +39,8 @@ def check_samples(craft: Craft, s: Samples, engine_id: str, dv: float,
     _, r2, _ = fly_many(craft, m1, r1, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=s.ve, frac=s.frac)
     intact = all_last(r2 - craft.residuals() >= -EPS_KG)
     e = craft.engine_index(engine_id)
-    free, _, _ = dv_free_many(craft, m1, r1, e, ve=s.ve, frac=s.frac)
-    avail, _ = dv_available_many(craft, m1, r1, e, ve=s.ve, frac=s.frac)
+    after = _TankMajor(craft, m1, r1, s.ve, s.frac)  # dv_free_many / dv_available_many, tank-major
+    free, avail = after.dv_free(e), after.dv_available(e)
     burn_ok = all_last(r1 - craft.residuals() >= -EPS_KG)
     return SampleCheck(intact, np.where(intact & burn_ok, np.minimum(free, avail), 0.0))
 
@@ -51,7 +51,7 @@ def capability_samples(craft: Craft, s: Samples) -> tuple[np.ndarray, np.ndarray
     The figures of ``capability.dv_available_many`` and ``dv_free_many`` (exactly: the same operations on
     the same numbers), worked tank-major (``_TankMajor``): over a few tanks numpy broadcasts an (S, tanks)
     array against a per-tank row one sample at a time, several times slower than over rows of S."""
-    t = _TankMajor(craft, s)
+    t = _TankMajor(craft, s.mass_kg, s.remaining_kg, s.ve, s.frac)
     avail = np.empty(s.ve.shape)
     free = np.empty(s.ve.shape)
     for e in range(len(craft.engines)):
@@ -65,15 +65,16 @@ class _TankMajor:
     every per-tank operation runs over S contiguous values. The reductions over tanks take the (S, tanks)
     views of these rows (``lastaxis`` walks them a row at a time)."""
 
-    def __init__(self, craft: Craft, s: Samples):
-        self.craft, self.mass, self.ve = craft, s.mass_kg, s.ve
+    def __init__(self, craft: Craft, mass: np.ndarray, remaining: np.ndarray, ve: np.ndarray,
+                 frac: np.ndarray | None):
+        self.craft, self.mass, self.ve = craft, mass, ve
         self.fractions = craft.feed_fractions()
-        self.spare = np.ascontiguousarray(s.remaining_kg.T) - craft.residuals()[:, None]  # may be negative
+        self.spare = np.ascontiguousarray(remaining.T) - craft.residuals()[:, None]  # may be negative
         # feed shares per engine: (engines, tanks, 1), or (engines, tanks, S) per sample (drawn mixture ratios)
-        self.frac = (self.fractions[:, :, None] if s.frac is None
-                     else np.ascontiguousarray(np.moveaxis(np.asarray(s.frac, dtype=float), 0, -1)))
-        c = np.zeros((len(craft.tanks), len(s.mass_kg)))  # ``capability.reserve_draw_per_kg``, tank-major
-        carried = np.ones(len(s.mass_kg))
+        self.frac = (self.fractions[:, :, None] if frac is None
+                     else np.ascontiguousarray(np.moveaxis(np.asarray(frac, dtype=float), 0, -1)))
+        c = np.zeros((len(craft.tanks), len(mass)))  # ``capability.reserve_draw_per_kg``, tank-major
+        carried = np.ones(len(mass))
         for r in craft.reserves:
             e = craft.engine_index(r.engine)
             step = np.exp(-r.dv_m_s / self.ve[:, e])

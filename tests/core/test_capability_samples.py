@@ -116,3 +116,15 @@ def test_tank_major_capability_is_bit_for_bit_the_per_engine_maths(rows, reserve
         a, _ = cap.dv_available_many(craft, mass, rem, e, ve=ve, frac=frac)
         f, _, _ = cap.dv_free_many(craft, mass, rem, e, ve=ve, frac=frac)
         assert _bits(avail[:, e].copy(), a) and _bits(free[:, e].copy(), np.minimum(f, a))
+    # and the check of a burn after commitments (sampled.check_samples), against the same per-engine maths
+    from ledger.core.lastaxis import all_last
+
+    burns = [("thr", 3.0), ("main", 40.0)]
+    m1, r1, _ = cap.fly_many(craft, mass, rem, burns, ve=ve, frac=frac)
+    _, r2, _ = cap.fly_many(craft, m1, r1, [(r.engine, r.dv_m_s) for r in craft.reserves], ve=ve, frac=frac)
+    intact = all_last(r2 - craft.residuals() >= -cap.EPS_KG)
+    f, _, _ = cap.dv_free_many(craft, m1, r1, 0, ve=ve, frac=frac)
+    a, _ = cap.dv_available_many(craft, m1, r1, 0, ve=ve, frac=frac)
+    ok = intact & all_last(r1 - craft.residuals() >= -cap.EPS_KG)
+    sc = sampled.check_samples(craft, s, "main", 40.0, [("thr", 3.0)])
+    assert np.array_equal(sc.intact, intact) and _bits(sc.dv_free_after, np.where(ok, np.minimum(f, a), 0.0))

@@ -114,7 +114,7 @@ def summarize(ledger) -> dict[str, Any]:
     from . import uncertainty  # noqa: PLC0415
 
     snap = ledger.snapshot()
-    data = uncertainty.status_with_confidence(snap)
+    data = uncertainty.status_with_confidence(snap, with_thrusters=False)  # a row shows no thruster totals
     last_entry = max(snap.entries, key=lambda e: e.seq) if snap.entries else None
     return row_from_status(data, head=snap.head,
                            last_entry_at=iso(last_entry.recorded) if last_entry else snap.meta.get("created"),

@@ -300,9 +300,10 @@ def _outage(craft, s: mc.Samples, confidence: float) -> list[dict[str, Any]]:
 
 
 def status_with_confidence(snap: Snapshot, confidence: float = DEFAULT_CONFIDENCE, samples: int = DEFAULT_SAMPLES,
-                           seed: int = DEFAULT_SEED, progress: mc.Progress | None = None) -> dict[str, Any]:
+                           seed: int = DEFAULT_SEED, progress: mc.Progress | None = None, *,
+                           with_thrusters: bool = True) -> dict[str, Any]:
     """``views.status`` plus confidence, per tank usable_low_kg, per engine dv_free_low_m_s, plan approvals."""
-    data = status(snap)
+    data = status(snap, with_thrusters=with_thrusters)
     u = confidence_status(snap, confidence, samples, seed, progress)
     data["confidence"] = confidence
     for tid, t in data["tanks"].items():

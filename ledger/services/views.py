@@ -15,7 +15,9 @@ LATE_AFTER_S = 3600.0
 """An executed event recorded more than this long after it happened is marked as logged late."""
 
 
-def status(snap: Snapshot) -> dict[str, Any]:
+def status(snap: Snapshot, *, with_thrusters: bool = True) -> dict[str, Any]:
+    """The status figures; ``with_thrusters=False`` leaves out the per-thruster totals (a pass over every
+    entry) for a caller that shows none of them (the fleet row). Life warnings are the snapshot's own."""
     craft = snap.craft
     usable = snap.usable_kg
     gauges = latest_gauges(snap)
@@ -43,7 +45,7 @@ def status(snap: Snapshot) -> dict[str, Any]:
         },
         "reserves": reserves,
         "mixture_outage": mixture_outage(snap),
-        "thrusters": thrusters(snap),
+        **({"thrusters": thrusters(snap)} if with_thrusters else {}),
         "pending_plans": [plan_row(p) for p in snap.resolved.pending],
         "integrity": "intact" if snap.integrity is None else str(snap.integrity),
         "warnings": list(snap.warnings),

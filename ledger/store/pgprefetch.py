@@ -26,6 +26,8 @@ class _Fetch(threading.Thread):
         self.store: Any = None
         self.rows: Any = None
         self.error: BaseException | None = None
+        self._state = threading.Lock()
+        self.finished = self.abandoned = False
 
     def run(self) -> None:
         try:
@@ -35,6 +37,18 @@ class _Fetch(threading.Thread):
             self.rows = self.store._query_direct(PgStore._READ_ANY, [self.store.craft])
         except Exception as exc:  # noqa: BLE001 - handed to the store's own read, which reports it
             self.error = exc
+        with self._state:
+            self.finished, abandoned = True, self.abandoned
+        if abandoned:
+            _close(self)
+
+    def abandon(self) -> None:
+        """No one will take this read: close its connection now, or when the thread ends (not waited for:
+        a command that failed early must not wait out the connect timeout of a server that is away)."""
+        with self._state:
+            self.abandoned, done = True, self.finished
+        if done:
+            _close(self)
 
 
 def start(url: str) -> None:
@@ -67,11 +81,9 @@ def take(url: str, conninfo: str, craft: str) -> tuple[Any, Any] | None:
 
 
 def drop() -> None:
-    """Forget every fetch not taken (at the end of a command), closing its connection."""
+    """Forget every fetch not taken (at the end of a command); each closes its connection."""
     while _pending:
-        _, fetch = _pending.popitem()
-        fetch.join()
-        _close(fetch)
+        _pending.popitem()[1].abandon()
 
 
 def _close(fetch: _Fetch) -> None:

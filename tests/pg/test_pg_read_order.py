@@ -75,8 +75,8 @@ def test_prefetched_status_equals_a_status_that_reads_for_itself(capsys, craft_u
 
 
 def test_a_prefetch_the_command_did_not_take_is_dropped(capsys, craft_url):
-    code, _, err = run(capsys, "--ledger", craft_url, "status", "--confidence", "7")
-    assert code == 2 and "--confidence" in err
+    code, _, err = run(capsys, "--ledger", craft_url, "status", "--no-such-option")  # refused before any read
+    assert code == 2 and "--no-such-option" in err
     assert not pgprefetch.started()  # nothing left for a later command to be answered from
     PgStore(craft_url).append({"kind": "mass", "at": "2026-12-03T00:00:00.000000Z",
                                "recorded": "2026-12-03T00:00:00.000000Z", "by": "alice", "note": "",
@@ -98,3 +98,22 @@ def test_an_unreachable_server_is_tried_once(capsys, tmp_path, monkeypatch):
     assert code == 2 and out == ""
     assert err.count("\n") == 1 and "cannot reach the database" in err
     assert len(calls) == 1
+
+
+def test_an_early_error_does_not_wait_for_a_slow_server(capsys, tmp_path, monkeypatch):
+    import threading  # noqa: PLC0415
+    import time  # noqa: PLC0415
+
+    release = threading.Event()
+
+    def slow(*a):  # a server that takes long to answer the connection
+        release.wait(10)
+        return None
+    monkeypatch.setattr(pgread, "connect", slow)
+    url = f"postgresql://alice@/ledgers?host={tmp_path}&craft=sat1"
+    t0 = time.perf_counter()
+    code, _, err = run(capsys, "--ledger", url, "status", "--no-such-option")
+    took = time.perf_counter() - t0
+    release.set()
+    assert code == 2 and "--no-such-option" in err and not pgprefetch.started()
+    assert took < 5.0, took  # the command ended with its error; the fetch thread was left to finish alone

@@ -85,26 +85,28 @@ def _additive(p: Plan, flow: np.ndarray, rng: np.random.Generator):
     return b, drawn
 
 
-def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng: np.random.Generator):
+def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, inv: np.ndarray, last: np.ndarray, lead: int,
+                rng: np.random.Generator):
     """Final mass and propellant per engine when one engine (or none) flies every delta-v burn.
 
     The final mass is kept_N·(m0 + sum_k b_k/A_k) and b is affine in the flows and the segments' errors
-    eta_k = sd_k z_k, so the sum is one matrix product of 1/A with constant columns: no scan. Whatever mass
-    went that the additive segments do not account for went through the one engine. Given the scaling,
-    the errors enter linearly: the final mass gets kept_N·X (X = sum eta_k/A_k), the additive segments'
-    total Y = sum eta_k, the draws G = -sum split_k z_k; (X, Y, G) is Gaussian with a covariance known per
-    sample, drawn directly (exact: conditioning on everything else), not one random number per segment:
-    (Y, G) from its constant covariance, then X given them.
+    eta_k = sd_k z_k, so the sum is one matrix product of 1/A (``inv``, from ``_inverse_kept``; ``last`` is
+    kept_N; the first ``lead`` additive segments have 1/A = 1) with constant columns: no scan. Whatever mass went that the additive segments do not account
+    for went through the one engine. Given the scaling, the errors enter linearly: the final mass gets
+    kept_N·X (X = sum eta_k/A_k), the additive segments' total Y = sum eta_k, the draws G = -sum split_k z_k;
+    (X, Y, G) is Gaussian with a covariance known per sample, drawn directly (exact: conditioning on
+    everything else), not one random number per segment: (Y, G) from its constant covariance, then X given them.
     """
     n, m, nd = len(m0), p.split.shape[1], p.dur_engines.size
     drawn = p.drawn_const + flow * p.seconds
     total = p.b_const.sum() - flow @ p.seconds
     acc = m0
     if p.b_const.size:
-        inv = 1.0 / kept[:, p.ns_before]
-        cols = inv @ p.weights
+        cols = inv @ p.weights[lead:]
+        if lead:
+            cols += p.weights[:lead].sum(axis=0)
         acc = m0 + cols[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], cols[:, 1:1 + nd])
-    final = kept[:, -1] * acc
+    final = last * acc
     if p.b_sd.any():
         # (Y, G) has the constant covariance total_cov: drawn with its fixed root. X given (Y, G) is
         # Gaussian with mean c·S⁺·(Y, G) and variance var(X) - c·S⁺·c (conditioning a joint Gaussian;
@@ -115,14 +117,45 @@ def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng
         c[:, 0] = cols[:, 1 + nd]
         c[:, 1:] = -cols[:, 2 + nd:]
         k = c @ p.total_pinv
-        var_x = np.einsum("ij,ij,j->i", inv, inv, p.weights[:, 1 + nd]) - np.einsum("ij,ij->i", k, c)
+        np.square(inv, out=inv)  # inv is not needed after this: var(X) = sum_k var_b_k / A_k^2
+        var_x = inv @ p.weights[lead:, 1 + nd] + p.weights[:lead, 1 + nd].sum() - np.einsum("ij,ij->i", k, c)
         x = np.einsum("ij,ij->i", k, yg) + np.sqrt(np.maximum(var_x, 0.0)) * z[:, 0]
-        final = final + kept[:, -1] * x
+        final = final + last * x
         total = total + yg[:, 0]
         drawn = drawn + yg[:, 1:] + rng.standard_normal((n, m)) @ p.resid.T
     if p.single is not None:
         drawn[:, p.single] += m0 + total - final
     return final, drawn
+
+
+def _inverse_kept(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
+    """1/A before the additive segments (n, Ka - lead), the fraction kept at the end (n,) and ``lead``,
+    the leading additive segments left out of the first (they come before any burn: their 1/A is 1).
+
+    The same draws as ``_scaling`` (one normal per scaling segment, in the same order), summed in delta-v
+    space: with one exhaust velocity per sample, ln A_i = -(delta-v of the scaling segments before i)/ve,
+    so 1/A is exp(+cum/ve), taken over the columns the additive segments use and in place in the array
+    the draws came in (no reciprocal, no second (n, Ks) array: a chunk's working set is one array).
+    """
+    ks = p.sc.size
+    if not ks:
+        return np.ones((n, p.b_const.size)), np.ones(n), 0
+    rate = 1.0 / ve[:, p.single:p.single + 1]  # (n, 1)
+    if p.dv_sd.any():
+        cum = rng.standard_normal((n, ks))
+        cum *= p.dv_sd
+        cum += p.dv
+    else:
+        cum = np.broadcast_to(p.dv, (n, ks)).copy()
+    np.cumsum(cum, axis=1, out=cum)  # cum[:, i]: delta-v of the scaling segments up to and with i
+    last = np.exp(-cum[:, -1] * rate[:, 0])
+    np.multiply(cum, rate, out=cum)  # the whole array: contiguous passes are cheaper than a view's
+    np.exp(cum, out=cum)
+    cols = p.ns_before  # per additive segment, the scaling segments before it: cum's column one to the left
+    if isinstance(cols, slice):
+        lead = 1 if cols.start == 0 else 0
+        return cum[:, cols.start + lead - 1:cols.stop - 1], last, lead
+    return np.concatenate([np.ones((n, 1)), cum], axis=1)[:, cols], last, 0
 
 
 def _scaling(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
@@ -175,13 +208,13 @@ def _run(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.rand
     ``_one_engine`` needs neither acc nor a random number per additive segment.
     """
     n, ks, ka = len(m0), p.sc.size, p.b_const.size
-    log_a, kept = _scaling(p, ve, rng, n)
     with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
         if (ks == 0 or p.single is not None) and not dense:
-            final, used = _one_engine(p, m0, flow, kept, rng)
+            final, used = _one_engine(p, m0, flow, *_inverse_kept(p, ve, rng, n), rng)
             if np.all(np.isfinite(final)) and np.all(np.isfinite(used)):
                 return final, used
             return _run(p, m0, ve, flow, rng, dense=True)
+        log_a, kept = _scaling(p, ve, rng, n)
         acc = np.empty((n, ka + 1))
         acc[:, 0] = m0
         b, drawn = None, np.zeros(flow.shape)

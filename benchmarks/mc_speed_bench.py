@@ -1,7 +1,7 @@
 """The Monte Carlo's CPU per craft (issue 15, point 4): the package's sampler against the previous one, same run.
 
 Run:  python benchmarks/mc_speed_bench.py [--entries 2000 20000] [--samples 10000] [--repeat 5]
-      [--ledger PATH ...]
+      [--ledger PATH ...] [--rows DIR ...]
 
 A cold fleet row spends most of its CPU in the 10,000-sample Monte Carlo behind the low bounds. This script
 times ``core.montecarlo.simulate`` as the fleet's worker processes run it (one thread) on the core_bench mix
@@ -11,6 +11,10 @@ events, as ``services.uncertainty.run`` hands them over), against the sampler as
 (time.process_time: the machine is shared). It also prints how far the two answers are apart: the same
 draws in the same order, so only rounding (relative 1e-12 or less), and the 1 % quantiles of the final mass
 and of each tank, with the Monte Carlo's own standard error of that quantile for scale.
+
+--rows DIR (a folder of ledgers, e.g. made by benchmarks/fleet_bench.py's ``generate``) copies the folder
+and times whole cold fleet rows (``services.fleet.row_for_path`` with the side caches removed before each,
+one thread as in a fleet worker), before and after, interleaved; the figures are per row.
 """
 from __future__ import annotations
 
@@ -120,6 +124,65 @@ def from_ledger(path: str):
     return snap.flight_craft, list(snap.flight_events)
 
 
+def cold_rows(folder: str, repeat: int) -> dict:
+    """Median CPU of one cold fleet row with the previous and the present sampler, on a copy of ``folder``."""
+    import glob  # noqa: PLC0415
+    import shutil  # noqa: PLC0415
+    import tempfile  # noqa: PLC0415
+
+    from ledger.services import fleet  # noqa: PLC0415
+
+    fleet._worker_init()  # as a fleet worker: the row modules loaded, one Monte Carlo thread
+    with tempfile.TemporaryDirectory() as tmp:
+        copy = os.path.join(tmp, "fleet")
+        shutil.copytree(folder, copy)
+        paths = sorted(glob.glob(os.path.join(copy, "*.json")))
+        paths = [q for q in paths if not q.endswith(".confidence-cache.json")]
+
+        def row(path: str) -> tuple[float, dict]:
+            for side in (".key", ".verified", ".confidence-cache.json"):
+                with contextlib.suppress(FileNotFoundError):
+                    os.remove(path + side)
+            out = {}
+            return cpu(lambda: out.update(fleet.row_for_path(path))), out
+
+        row(paths[0])
+        with old_sampler():
+            row(paths[0])
+        old_t, new_t, same = [], [], 0.0
+        for i in range(repeat):
+            path = paths[i % len(paths)]
+            with old_sampler():
+                t_old, a = row(path)
+            t_new, b = row(path)
+            old_t.append(t_old)
+            new_t.append(t_new)
+            same = max(same, row_difference(a, b))
+        entries_ = len(json_entries(paths[0]))
+    return {"name": os.path.basename(folder.rstrip("/")), "entries": entries_, "old": statistics.median(old_t),
+            "new": statistics.median(new_t), "same": same}
+
+
+def row_difference(a, b) -> float:
+    """Largest relative difference between two rows' numbers (the same draws: rounding only); inf when
+    anything else (a text, a verdict, a count, the rows' shape) differs."""
+    if isinstance(a, dict) and isinstance(b, dict):
+        return max([row_difference(a[k], b[k]) for k in a], default=0.0) if a.keys() == b.keys() else float("inf")
+    if isinstance(a, (list, tuple)) and isinstance(b, (list, tuple)):
+        return max(map(row_difference, a, b), default=0.0) if len(a) == len(b) else float("inf")
+    if isinstance(a, float) and isinstance(b, float):
+        return 0.0 if a == b else abs(a - b) / max(abs(a), abs(b))
+    return 0.0 if a == b else float("inf")
+
+
+def json_entries(path: str) -> list:
+    import json  # noqa: PLC0415
+
+    with open(path, encoding="utf-8") as fh:
+        doc = json.load(fh)
+    return doc.get("entries", doc.get("records", []))
+
+
 def cpu(fn) -> float:
     t = time.process_time()
     fn()
@@ -163,11 +226,13 @@ def main() -> None:
     ap.add_argument("--samples", type=int, default=mc.DEFAULT_SAMPLES)
     ap.add_argument("--repeat", type=int, default=5)
     ap.add_argument("--ledger", nargs="*", default=[], help="ledger files to measure as well (read only)")
+    ap.add_argument("--rows", nargs="*", default=[], help="folders of ledgers: whole cold fleet rows (copied first)")
     args = ap.parse_args()
     load0 = os.getloadavg()
     cases = [(f"core_bench mix, {n} entries", CRAFT, entries(n)) for n in args.entries]
     cases += [(os.path.basename(p), *from_ledger(p)) for p in args.ledger]
     results = [compare(name, craft, ev, args.samples, args.repeat) for name, craft, ev in cases]
+    rows = [cold_rows(folder, args.repeat) for folder in args.rows]
     load1 = os.getloadavg()
     print(f"Monte Carlo CPU per craft, {args.samples} samples, one thread, median of {args.repeat} interleaved runs")
     print(f"{'ledger':<34} {'entries':>7} {'segs':>5} {'chunk':>5} {'before s':>9} {'after s':>8} {'ratio':>6} "
@@ -176,6 +241,12 @@ def main() -> None:
         print(f"{r['name']:<34} {r['entries']:>7} {r['segments']:>5} {r['chunk']:>5} {r['old']:>9.3f} {r['new']:>8.3f} "
               f"{r['old'] / r['new']:>5.2f}x {r['rel']:>12.1e} {r['move_over_se']:>11.1e}")
     print(f"(best of runs: " + ", ".join(f"{r['old_best']:.3f} -> {r['new_best']:.3f} s" for r in results) + ")")
+    for r in rows:
+        print(f"cold fleet row, {r['name']} ({r['entries']} records): {r['old']:.3f} s CPU before, {r['new']:.3f} s "
+              f"after ({r['old'] / r['new']:.2f}x; the Monte Carlo's share went from about "
+              f"{next((x['old'] for x in results if x['entries'] == r['entries']), float('nan')) / r['old']:.0%} to "
+              f"{next((x['new'] for x in results if x['entries'] == r['entries']), float('nan')) / r['new']:.0%}); "
+              f"rows before and after: largest relative difference {r['same']:.1e}")
     print(f"machine: Python {platform.python_version()}, numpy {np.__version__}, {os.cpu_count()} cores; load average "
           f"{load0[0]:.1f} before, {load1[0]:.1f} after (shared machine: CPU seconds, ratios from the same run)")
 

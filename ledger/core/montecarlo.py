@@ -158,6 +158,79 @@ def _inverse_kept(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
     return np.concatenate([np.ones((n, 1)), cum], axis=1)[:, cols], last, 0
 
 
+def _engines(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.random.Generator):
+    """Final mass and propellant per engine when several engines fly the delta-v burns.
+
+    As in ``_one_engine`` the final mass is kept_N·(m0 + sum_k b_k/A_k). Scaling segment i of engine e
+    burns step_i·acc_i (step_i = kept_i - kept_i+1, acc_i = m0 + sum over additive k before i of b_k/A_k),
+    so engine e burns B_e = m0·Q_e0 + sum_k b_k·g_ek with g_ek = Q_ek/A_k and Q_ek the steps of e's
+    segments after k: again affine in the additive errors eta_k, with coefficients known per sample once
+    the scaling is drawn. So (X, H) = (sum eta_k/A_k, sum eta_k g_ek for all dv engines but one) given
+    (Y, G) (``_one_engine``) is Gaussian with a per-sample mean and a small per-sample covariance, drawn
+    directly with its own root (exact: conditioning a joint Gaussian), and the one engine left takes what
+    the mass balance leaves. One normal per scaling segment and a few per sample, none per additive
+    segment: about half the work of the scan below for a craft whose main engine flew a few burns.
+    """
+    n, ks, m, nd = len(m0), p.sc.size, p.split.shape[1], p.dur_engines.size
+    lg = np.empty((n, ks + 1))  # -ln kept: the scaling segments' delta-v before i over their own ve
+    lg[:, 0] = 0.0
+    step = rng.standard_normal((n, ks)) if p.dv_sd.any() else np.zeros((n, ks))
+    step *= p.dv_sd
+    step += p.dv
+    step *= (1.0 / ve)[:, p.eng]
+    np.cumsum(step, axis=1, out=lg[:, 1:])
+    kept = np.exp(-lg)
+    np.subtract(kept[:, :-1], kept[:, 1:], out=step)  # now the fraction of mass each scaling segment burns
+    last = kept[:, -1]
+    engines = np.unique(p.eng)
+    balance = int(engines[np.argmax(np.bincount(p.eng, weights=p.dv)[engines])])  # the engine of most delta-v
+    explicit = [int(e) for e in engines if e != balance]
+    drawn = p.drawn_const + flow * p.seconds
+    total = p.b_const.sum() - flow @ p.seconds
+    burnt, coef = [], []
+    for e in explicit:
+        q = np.zeros((n, ks + 1))  # its own array: coef may keep a view of it
+        np.cumsum(np.where(p.eng == e, step, 0.0)[:, ::-1], axis=1, out=q[:, -2::-1])  # Q_e: steps from i on
+        burnt.append(m0 * q[:, 0])
+        coef.append(q[:, p.ns_before])
+    if not p.b_const.size:
+        final = last * m0
+    else:
+        inv = np.exp(lg[:, p.ns_before])  # 1/A_k
+        coef = [inv] + [g * inv for g in coef]
+        cols = [u @ p.weights for u in coef]
+        det = [c[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], c[:, 1:1 + nd]) for c in cols]
+        final = last * (m0 + det[0])
+        burnt = [b + d for b, d in zip(burnt, det[1:])]
+        if p.b_sd.any():
+            r = len(coef)
+            z = rng.standard_normal((n, r + m + 1))
+            yg = z[:, r:] @ p.total_root.T
+            c = np.empty((n, r, m + 1))  # cov((X, H), (Y, G)) per sample
+            for a, col in enumerate(cols):
+                c[:, a, 0] = col[:, 1 + nd]
+                c[:, a, 1:] = -col[:, 2 + nd:]
+            k = c @ p.total_pinv
+            var_b = p.weights[:, 1 + nd]
+            cov = np.empty((n, r, r))
+            for a in range(r):
+                weighted = coef[a] * var_b
+                for b in range(a, r):
+                    cov[:, a, b] = cov[:, b, a] = np.einsum("ij,ij->i", weighted, coef[b])
+            cov -= k @ c.transpose(0, 2, 1)
+            lam, vec = np.linalg.eigh(cov)
+            root = vec * np.sqrt(np.maximum(lam, 0.0))[:, None, :]
+            u = np.einsum("nab,nb->na", k, yg) + np.einsum("nab,nb->na", root, z[:, :r])
+            final = final + last * u[:, 0]
+            burnt = [b + u[:, 1 + j] for j, b in enumerate(burnt)]
+            total = total + yg[:, 0]
+            drawn = drawn + yg[:, 1:] + rng.standard_normal((n, m)) @ p.resid.T
+    drawn[:, balance] += m0 + total - final - sum(burnt, np.zeros(n))
+    for e, b in zip(explicit, burnt):
+        drawn[:, e] += b
+    return final, drawn
+
+
 def _scaling(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
     """log of each scaling segment's factor (n, Ks) and kept = exp(cumulative sum), (n, Ks + 1)."""
     ks = p.sc.size
@@ -204,13 +277,17 @@ def _run(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.rand
 
     kept[:, i] is the fraction of mass the scaling segments before i leave (A in replay.mass_scan) and
     acc[:, j] is m0 + sum of b/A over the first j additive segments, so the mass before a segment is
-    kept·acc and a scaling segment burns (kept_i - kept_i+1)·acc. With one engine on the delta-v burns
-    ``_one_engine`` needs neither acc nor a random number per additive segment.
+    kept·acc and a scaling segment burns (kept_i - kept_i+1)·acc. ``_one_engine`` (one engine on the
+    delta-v burns) and ``_engines`` (several) need neither acc nor a random number per additive segment;
+    this scan (``dense``) is what they fall back on when a mass ratio leaves float range.
     """
     n, ks, ka = len(m0), p.sc.size, p.b_const.size
     with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
-        if (ks == 0 or p.single is not None) and not dense:
-            final, used = _one_engine(p, m0, flow, *_inverse_kept(p, ve, rng, n), rng)
+        if not dense:
+            if ks == 0 or p.single is not None:
+                final, used = _one_engine(p, m0, flow, *_inverse_kept(p, ve, rng, n), rng)
+            else:
+                final, used = _engines(p, m0, ve, flow, rng)
             if np.all(np.isfinite(final)) and np.all(np.isfinite(used)):
                 return final, used
             return _run(p, m0, ve, flow, rng, dense=True)

@@ -163,60 +163,74 @@ def _engines(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.
 
     As in ``_one_engine`` the final mass is kept_N·(m0 + sum_k b_k/A_k). Scaling segment i of engine e
     burns step_i·acc_i (step_i = kept_i - kept_i+1, acc_i = m0 + sum over additive k before i of b_k/A_k),
-    so engine e burns B_e = m0·Q_e0 + sum_k b_k·g_ek with g_ek = Q_ek/A_k and Q_ek the steps of e's
-    segments after k: again affine in the additive errors eta_k, with coefficients known per sample once
-    the scaling is drawn. So (X, H) = (sum eta_k/A_k, sum eta_k g_ek for all dv engines but one) given
-    (Y, G) (``_one_engine``) is Gaussian with a per-sample mean and a small per-sample covariance, drawn
-    directly with its own root (exact: conditioning a joint Gaussian), and the one engine left takes what
-    the mass balance leaves. One normal per scaling segment and a few per sample, none per additive
-    segment: about half the work of the scan below for a craft whose main engine flew a few burns.
+    so engine e burns B_e = m0·Q_e0 + sum_k b_k·Q_ek/A_k, Q_ek the steps of e's segments after k: again
+    affine in the additive errors eta_k, with coefficients known per sample once the scaling is drawn.
+    So (X, H) = (sum eta_k/A_k, sum eta_k Q_ek/A_k for every delta-v engine but the one of most segments)
+    given (Y, G) (``_one_engine``) is Gaussian with a per-sample mean and a small per-sample covariance,
+    drawn directly with its own root (exact: conditioning a joint Gaussian), and the engine left out takes
+    what the mass balance leaves. One normal per scaling segment and a few per sample, none per additive
+    segment; an engine's terms stop at its last segment (Q_ek = 0 after it), so an apogee engine that
+    flew a few early burns costs next to nothing.
     """
-    n, ks, m, nd = len(m0), p.sc.size, p.split.shape[1], p.dur_engines.size
-    lg = np.empty((n, ks + 1))  # -ln kept: the scaling segments' delta-v before i over their own ve
-    lg[:, 0] = 0.0
-    step = rng.standard_normal((n, ks)) if p.dv_sd.any() else np.zeros((n, ks))
-    step *= p.dv_sd
-    step += p.dv
-    step *= (1.0 / ve)[:, p.eng]
-    np.cumsum(step, axis=1, out=lg[:, 1:])
-    kept = np.exp(-lg)
-    np.subtract(kept[:, :-1], kept[:, 1:], out=step)  # now the fraction of mass each scaling segment burns
-    last = kept[:, -1]
-    engines = np.unique(p.eng)
-    balance = int(engines[np.argmax(np.bincount(p.eng, weights=p.dv)[engines])])  # the engine of most delta-v
-    explicit = [int(e) for e in engines if e != balance]
+    n, ks, ka, m, nd = len(m0), p.sc.size, p.b_const.size, p.split.shape[1], p.dur_engines.size
+    cum = rng.standard_normal((n, ks)) if p.dv_sd.any() else np.zeros((n, ks))
+    cum *= p.dv_sd
+    cum += p.dv
+    cum *= (1.0 / ve)[:, p.eng]  # each segment over its own engine's exhaust velocity
+    np.cumsum(cum, axis=1, out=cum)
+    np.exp(cum, out=cum)  # cum[:, i] = 1/kept after scaling segment i
+    last = 1.0 / cum[:, -1]
+    ns = p.ns_before
+    if isinstance(ns, slice):
+        lead = 1 if ns.start == 0 else 0
+        inv = cum[:, ns.start + lead - 1:ns.stop - 1]
+        ns = np.arange(ns.start, ns.stop)
+    else:
+        lead, inv = 0, np.concatenate([np.ones((n, 1)), cum], axis=1)[:, ns]
+    engines, counts = np.unique(p.eng, return_counts=True)
+    balance = int(engines[np.argmax(counts)])
     drawn = p.drawn_const + flow * p.seconds
     total = p.b_const.sum() - flow @ p.seconds
-    burnt, coef = [], []
-    for e in explicit:
-        q = np.zeros((n, ks + 1))  # its own array: coef may keep a view of it
-        np.cumsum(np.where(p.eng == e, step, 0.0)[:, ::-1], axis=1, out=q[:, -2::-1])  # Q_e: steps from i on
+    burnt, coef = [], []  # per explicit engine: m0·Q_e0, and Q_ek/A_k over the additive segments before its last
+    for e in (int(e) for e in engines if e != balance):
+        idx = np.flatnonzero(p.eng == e)
+        before = np.ones((n, idx.size))  # kept before each of e's segments
+        before[:, idx > 0] = 1.0 / cum[:, idx[idx > 0] - 1]
+        step = before - 1.0 / cum[:, idx]
+        q = np.zeros((n, idx.size + 1))
+        np.cumsum(step[:, ::-1], axis=1, out=q[:, -2::-1])  # q[:, t]: e's steps from its t-th segment on
         burnt.append(m0 * q[:, 0])
-        coef.append(q[:, p.ns_before])
-    if not p.b_const.size:
-        final = last * m0
-    else:
-        inv = np.exp(lg[:, p.ns_before])  # 1/A_k
-        coef = [inv] + [g * inv for g in coef]
-        cols = [u @ p.weights for u in coef]
-        det = [c[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], c[:, 1:1 + nd]) for c in cols]
-        final = last * (m0 + det[0])
-        burnt = [b + d for b, d in zip(burnt, det[1:])]
+        upto = int(np.searchsorted(ns, idx[-1], side="right"))  # additive segments with an e-segment after
+        g = q[:, np.searchsorted(idx, ns[:upto])]
+        g[:, lead:] *= inv[:, :upto - lead]
+        coef.append((e, upto, g))
+    explicit = [e for e, _, _ in coef]
+    if ka:
+        cols = inv @ p.weights[lead:]
+        if lead:
+            cols += p.weights[:lead].sum(axis=0)
+        c_e = [g @ p.weights[:upto] for _, upto, g in coef]
+        final = last * (m0 + cols[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], cols[:, 1:1 + nd]))
+        burnt = [b + c[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], c[:, 1:1 + nd]) for b, c in zip(burnt, c_e)]
         if p.b_sd.any():
-            r = len(coef)
+            r = 1 + len(coef)
             z = rng.standard_normal((n, r + m + 1))
             yg = z[:, r:] @ p.total_root.T
             c = np.empty((n, r, m + 1))  # cov((X, H), (Y, G)) per sample
-            for a, col in enumerate(cols):
+            for a, col in enumerate([cols] + c_e):
                 c[:, a, 0] = col[:, 1 + nd]
                 c[:, a, 1:] = -col[:, 2 + nd:]
             k = c @ p.total_pinv
             var_b = p.weights[:, 1 + nd]
-            cov = np.empty((n, r, r))
-            for a in range(r):
-                weighted = coef[a] * var_b
-                for b in range(a, r):
-                    cov[:, a, b] = cov[:, b, a] = np.einsum("ij,ij->i", weighted, coef[b])
+            cov = np.empty((n, r, r))  # cov((X, H)) per sample: sums of var_b_k times the coefficients
+            for a, (_, upto, g) in enumerate(coef, start=1):
+                h = g * var_b[:upto]
+                cov[:, 0, a] = cov[:, a, 0] = h[:, :lead].sum(axis=1) + np.einsum("ij,ij->i", h[:, lead:], inv[:, :upto - lead])
+                for b_, (_, upto2, g2) in enumerate(coef[a - 1:], start=a):
+                    w = min(upto, upto2)
+                    cov[:, a, b_] = cov[:, b_, a] = np.einsum("ij,ij->i", h[:, :w], g2[:, :w])
+            np.square(inv, out=inv)
+            cov[:, 0, 0] = inv @ var_b[lead:] + var_b[:lead].sum()
             cov -= k @ c.transpose(0, 2, 1)
             lam, vec = np.linalg.eigh(cov)
             root = vec * np.sqrt(np.maximum(lam, 0.0))[:, None, :]
@@ -225,6 +239,8 @@ def _engines(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.
             burnt = [b + u[:, 1 + j] for j, b in enumerate(burnt)]
             total = total + yg[:, 0]
             drawn = drawn + yg[:, 1:] + rng.standard_normal((n, m)) @ p.resid.T
+    else:
+        final = last * m0
     drawn[:, balance] += m0 + total - final - sum(burnt, np.zeros(n))
     for e, b in zip(explicit, burnt):
         drawn[:, e] += b

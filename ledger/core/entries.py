@@ -121,7 +121,10 @@ def _by_time(entries: list[Entry]) -> tuple[Entry, ...]:
     """Entries ordered by (at, seq); ``entries`` must already be in seq order (a stable sort keeps it)."""
     if not entries:
         return ()
-    order = np.argsort(np.fromiter((e.at for e in entries), dtype=float, count=len(entries)), kind="stable")
+    at = np.fromiter((e.at for e in entries), dtype=float, count=len(entries))
+    if (at[1:] >= at[:-1]).all():  # already in time order (as entries are usually recorded): the stable order
+        return tuple(entries)
+    order = np.argsort(at, kind="stable")
     return tuple(entries[i] for i in order)
 
 

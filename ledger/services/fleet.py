@@ -207,8 +207,11 @@ def _row_for_path(path: str, Ledger) -> dict[str, Any]:
 
 ROW_MODULES = ("ledger.services.ledger", "ledger.services.uncertainty", "ledger.services.confcache",
                "ledger.services.forecast", "ledger.services.blowdown", "ledger.store.verifiedmark",
-               "ledger.core.montecarlo", "ledger.core.segments", "ledger.core.sampled")
-"""What a cold row imports: loaded once before the workers fork, so each worker starts with them."""
+               "ledger.core.montecarlo", "ledger.core.segments", "ledger.core.sampled",
+               "ledger.store.ledgerfile", "ledger.services.pulses", "ledger.services.approvalrule",
+               "ledger.core.mixture", "numpy.random")
+"""What a cold row imports: loaded once before the workers fork, so each worker starts with them (the
+first row of a fresh worker otherwise imported the last five itself, numpy's random generators among them)."""
 GC_YOUNG = 50_000
 """Allocations between young-generation collections in a worker (Python's default is 700). A row makes
 hundreds of thousands of short-lived, cycle-free objects (parsed records, entries); at the default the
@@ -254,15 +257,25 @@ def _largest_first(members: Sequence[str]) -> list[str]:
 
 
 # --- many craft --------------------------------------------------------------------------------
+CHUNK = 1
+"""Rows per task handed to a worker. A row costs 50 ms or more and a task's round trip well under a
+millisecond, so one row a task: the two workers then finish within about one row of each other, where
+chunks of 1/32 of the fleet could leave one worker idle for a whole chunk at the end."""
+
+
 def compute(paths: Sequence[str], workers: int = WORKERS, context: str | None = None,
-            row_fn: Callable[[str], dict[str, Any]] | None = None) -> list[dict[str, Any]]:
+            row_fn: Callable[[str], dict[str, Any]] | None = None,
+            before: Callable[[str], Any] | None = None) -> list[dict[str, Any]]:
     """Rows for ``paths`` in the same order, in ``workers`` processes when there are enough of them
-    (``row_fn``: the source's picklable row function, ``fleetsource.row_function``; files by default)."""
+    (``row_fn``: the source's picklable row function, ``fleetsource.row_function``; files by default).
+
+    ``before(path)`` runs in this process just before ``path`` is handed out (``rows`` takes each cache
+    key there: the workers start on the first rows while the later keys are still being read)."""
     row_fn = row_fn or row_for_path
     if not paths:
         return []
     if workers <= 1 or len(paths) < SERIAL_BELOW:
-        return [row_fn(p) for p in paths]
+        return [row_fn(p) for p in _announced(paths, before)]
     import importlib  # noqa: PLC0415
     import multiprocessing  # noqa: PLC0415
 
@@ -271,9 +284,15 @@ def compute(paths: Sequence[str], workers: int = WORKERS, context: str | None = 
     if method == "fork":
         for name in ROW_MODULES:
             importlib.import_module(name)
-    chunk = max(1, len(paths) // (workers * 16))
     with ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_worker_init) as pool:
-        return list(pool.map(row_fn, paths, chunksize=chunk))
+        return list(pool.map(row_fn, _announced(paths, before), chunksize=CHUNK))
+
+
+def _announced(paths: Sequence[str], before: Callable[[str], Any] | None) -> Iterable[str]:
+    for p in paths:
+        if before is not None:
+            before(p)
+        yield p
 
 
 def rows(source: FolderSource, *, workers: int = WORKERS, use_cache: bool = True, context: str | None = None,
@@ -283,19 +302,28 @@ def rows(source: FolderSource, *, workers: int = WORKERS, use_cache: bool = True
 
     members = source.members()
     cache = fleetcache.load(source.cache_base()) if use_cache else {}
-    prints = {m: source.fingerprint(m) for m in members}
+    prints: dict[str, str | None] = {}
     out: dict[str, dict[str, Any]] = {}
     todo = []
     for m in members:
         hit = cache.get(m)
-        if prints[m] is not None and hit is not None and hit.get("key") == prints[m]:
-            out[m] = hit["row"]
-        else:
-            todo.append(m)
+        if hit is not None:  # a cached row answers only under its key: taken now
+            prints[m] = source.fingerprint(m)
+            if prints[m] is not None and hit.get("key") == prints[m]:
+                out[m] = hit["row"]
+                continue
+        todo.append(m)
     todo = _largest_first(todo)  # the rows land by member below, whatever order they are computed in
     if progress:
         progress(len(out), len(members))
-    for m, row in zip(todo, compute(todo, workers, context, getattr(source, "row_function", None))):
+
+    def key_first(m: str) -> None:
+        """The key of a row to compute, taken just before the row is handed out: never newer than it."""
+        if m not in prints:
+            prints[m] = source.fingerprint(m)
+
+    for m, row in zip(todo, compute(todo, workers, context, getattr(source, "row_function", None),
+                                    before=key_first if use_cache else None)):
         out[m] = row
     if use_cache and todo:
         keep = {m: {"key": prints[m], "row": out[m]} for m in members

@@ -268,16 +268,20 @@ def _confidence_status(snapshot: Snapshot, confidence: float, samples: int, seed
         return {"mean": float(x.mean()), "sd": float(x.std(ddof=1)) if len(x) > 1 else 0.0,
                 "low": sampled.low_bound(x, confidence)}
 
+    # Each column's statistics once: its low bound is both the headline figure and the stats' "low".
+    usable_st = [stats(usable[:, i]) for i in range(len(craft.tanks))]
+    free_st = [stats(free[:, i]) for i in range(len(craft.engines))]
+    avail_st = [stats(avail[:, i]) for i in range(len(craft.engines))]
     return {
         "confidence": confidence, "samples": len(s), "seed": s.seed, "segments": s.segments,
         "mass_kg": dict(stats(s.mass_kg), nominal=snapshot.state.mass_kg),
-        "tanks": {t.id: {"usable_kg": float(snapshot.usable_kg[i]), "usable_low_kg": sampled.low_bound(usable[:, i], confidence),
-                         "usable": stats(usable[:, i]), "remaining": stats(s.remaining_kg[:, i])}
+        "tanks": {t.id: {"usable_kg": float(snapshot.usable_kg[i]), "usable_low_kg": usable_st[i]["low"],
+                         "usable": usable_st[i], "remaining": stats(s.remaining_kg[:, i])}
                   for i, t in enumerate(craft.tanks)},
-        "engines": {e.id: {"dv_free_m_s": nominal[e.id].dv_free_m_s, "dv_free_low_m_s": sampled.low_bound(free[:, i], confidence),
+        "engines": {e.id: {"dv_free_m_s": nominal[e.id].dv_free_m_s, "dv_free_low_m_s": free_st[i]["low"],
                            "dv_available_m_s": nominal[e.id].dv_available_m_s,
-                           "dv_available_low_m_s": sampled.low_bound(avail[:, i], confidence),
-                           "dv_free": stats(free[:, i]), "dv_available": stats(avail[:, i])}
+                           "dv_available_low_m_s": avail_st[i]["low"],
+                           "dv_free": free_st[i], "dv_available": avail_st[i]}
                     for i, e in enumerate(craft.engines)},
         "reserves_probability": float(sampled.reserves_intact(craft, s).mean()),
         "mixture_outage": _outage(craft, s, confidence),

@@ -164,3 +164,25 @@ def test_no_folder_is_one_clear_error(tmp_path, monkeypatch):
         fleet.resolve_folder(None)
     with pytest.raises(Exception, match="not a folder"):
         fleet.FolderSource(str(tmp_path / "nowhere"))
+
+
+def test_each_cache_key_is_taken_before_its_row(tmp_path, monkeypatch):
+    # The keys of the rows to compute are read as the rows are handed out (so the workers can start on the
+    # first rows): each must still be read before its own row, so a cached row can be older than its key
+    # says, never newer (a ledger changed in between is computed again on the next look).
+    found = scenario.bundled()
+    for name in ("geo-comsat", "leo-imager", "lunar-orbiter"):
+        scenario.build(found[name], str(tmp_path / f"{name}.json"))
+    src = fleet.FolderSource(str(tmp_path))
+    events = []
+    real_key, real_row = src.fingerprint, fleet.row_for_path
+    monkeypatch.setattr(src, "fingerprint", lambda m: events.append(("key", m)) or real_key(m))
+    monkeypatch.setattr(fleet, "row_for_path", lambda m: events.append(("row", m)) or real_row(m))
+    rows = fleet.rows(src, workers=1)
+    members = src.members()
+    assert sorted(m for kind, m in events if kind == "row") == sorted(members)
+    for m in members:
+        assert events.index(("key", m)) < events.index(("row", m))
+    stored = fleetcache.load(src.cache_base())
+    assert {m: stored[m]["row"] for m in members} == dict(zip(members, rows))
+    assert all(stored[m]["key"] == real_key(m) for m in members)

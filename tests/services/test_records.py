@@ -52,3 +52,24 @@ def test_words_numpy_would_read_as_times_are_not_times():
         records = [dict(_record(1, 0.0, 0.0), at=word)]
         with pytest.raises(ValueError):
             entries_from_records(records)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(MICROS, min_size=1, max_size=40), st.sampled_from([None, "+02:00", "\u00e9", "\x00", " "]),
+       st.booleans())
+def test_one_width_block_reads_as_the_standard_library(micros, odd, whole_seconds):
+    # Times all of one width are parsed as one block of ASCII; the reference is Python's datetime (ISO 8601
+    # reading, POSIX timestamp). One odd time (an offset, a non-ASCII or NUL character, a space) must be read
+    # exactly as the standard library reads it, or refused as it refuses it.
+    stamps = [iso((m // 1_000_000) if whole_seconds else m / 1e6) for m in micros]
+    if odd is not None:
+        stamps[len(stamps) // 2] = stamps[len(stamps) // 2][:-1] + odd if odd == "+02:00" else \
+            stamps[len(stamps) // 2][:12] + odd + stamps[len(stamps) // 2][13:]
+    records = [dict(_record(i + 1, 0.0, 0.0), at=s, recorded=stamps[0]) for i, s in enumerate(stamps)]
+    try:
+        want = [datetime.fromisoformat(s.replace("Z", "+00:00")).timestamp() for s in stamps]
+    except ValueError:
+        with pytest.raises(ValueError):
+            entries_from_records(records)
+        return
+    assert [e.at for e in entries_from_records(records)] == want

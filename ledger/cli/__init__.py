@@ -87,6 +87,7 @@ def _quiet_stdout() -> None:
 
 def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else argv
+    prefetching = _prefetch(argv)
     try:
         args = build_parser(argv).parse_args(argv)
         if not getattr(args, "func", None):
@@ -109,6 +110,29 @@ def main(argv: list[str] | None = None) -> int:
         print(f"propledger: internal error: {type(exc).__name__}: {_one_line(exc)} (PROPLEDGER_DEBUG=1 shows the traceback)",
               file=sys.stderr)
         return EXIT_ERROR
+    finally:
+        if prefetching:
+            from ..store import pgprefetch  # noqa: PLC0415
+
+            pgprefetch.drop()
+
+
+def _prefetch(argv: list[str]) -> bool:
+    """Start the first read of a database ledger for a read-only command (``store.pgprefetch``)."""
+    address = os.environ.get("PROPLEDGER_LEDGER")
+    for i, tok in enumerate(argv):  # the last --ledger wins, as in the parser
+        if tok == "--ledger" and i + 1 < len(argv):
+            address = argv[i + 1]
+        elif tok.startswith("--ledger="):
+            address = tok.split("=", 1)[1]
+    if not address or not address.lower().startswith(("postgresql://", "postgres://")):  # seam.is_url
+        return False
+    from ..store import pgprefetch  # noqa: PLC0415
+
+    if command_word(argv) not in pgprefetch.READ_ONLY:
+        return False
+    pgprefetch.start(address)
+    return True
 
 
 def run() -> None:

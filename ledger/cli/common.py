@@ -80,4 +80,4 @@ def warn(lines: list[str]) -> None:
     if lines:
         err = console(stderr=True)
         for line in lines:
-            err.print(f"[bold yellow]warning:[/] {esc(line)}")
+            err.print(f"[bold dark_orange]warning:[/] {esc(line)}")

@@ -144,7 +144,7 @@ def print_fleet(source, rows, margin: float) -> None:
         table.add_column(col, justify="left" if col in ("craft", "chain", "plans") else "right",
                          no_wrap=True, overflow="ellipsis", max_width=14 if col == "craft" else None)
     for row in rows:
-        style = "bold red" if row["state"] != "ok" else ("yellow" if row["attention"] else None)
+        style = "bold red" if row["state"] != "ok" else ("dark_orange" if row["attention"] else None)
         table.add_row(*cells(row, wide), style=style)
     out.print(table)
     flagged = [r for r in rows if r["attention"]]
@@ -152,6 +152,6 @@ def print_fleet(source, rows, margin: float) -> None:
         if r["state"] == "unreadable":  # the error names the file
             out.print(f"[bold red]unreadable:[/] {esc(r['error'])}")
             continue
-        out.print(f"[bold yellow]attention:[/] {esc(r['craft'])}: {esc('; '.join(r['attention']))}")
+        out.print(f"[bold dark_orange]attention:[/] {esc(r['craft'])}: {esc('; '.join(r['attention']))}")
     out.print(f"[dim]{esc(LEGEND)}[/]")
     out.print(f"[dim]{esc(CAUTION)}[/]")

@@ -110,6 +110,7 @@ def print_status(data: dict) -> None:
         engines.add_row(esc(eid), f"{e['dv_available_m_s']:.2f}", f"{e['dv_free_m_s']:.2f}",
                         *((f"{e['dv_free_low_m_s']:.2f}",) if low else ()), esc(e["limiting_tank"]))
     out.print(engines)
+    thruster_table(out, data.get("thrusters") or [])
     if low:
         u = data["uncertainty"]
         out.print(f"[dim]{low}: value exceeded with probability {data['confidence']:g} over {u['samples']} samples "
@@ -126,8 +127,34 @@ def print_status(data: dict) -> None:
     for line in forecast_lines(data.get("forecast") or {}):
         out.print(line)
     for w in data["warnings"]:
-        out.print(f"[bold yellow]warning:[/] {esc(w)}")
+        out.print(f"[bold dark_orange]warning:[/] {esc(w)}")
     out.print(f"[dim]{esc(data['caution'])}[/]")
+
+
+LIFE_WORDS = {"pulses": "pulses", "throughput_kg": "throughput", "on_time_s": "on-time"}
+
+
+def thruster_table(out, rows: list) -> None:
+    """Each engine's use over the whole ledger against its qualified life (``thrusters`` of the JSON);
+    a share at the warning level (``LIFE_WARN_SHARE``) in orange, as its warning says."""
+    from rich import box  # noqa: PLC0415
+    from rich.table import Table  # noqa: PLC0415
+
+    from ..services.warnings import LIFE_WARN_SHARE  # noqa: PLC0415
+
+    if not any(r["on_time_s"] or r["pulses"] or r["throughput_kg"] or r["life"] for r in rows):
+        return
+    table = Table(title="Thruster use, whole ledger", title_justify="left", box=box.SIMPLE_HEAVY)
+    for col in ("engine", "on-time s", "pulses", "throughput kg", "life used"):
+        table.add_column(col, justify="left" if col in ("engine", "life used") else "right")
+    for r in rows:
+        used = []
+        for key, share in r["life_used"].items():
+            text = f"{LIFE_WORDS.get(key, key)} {100 * share:.0f} %"
+            used.append(f"[bold dark_orange]{text}[/]" if share >= LIFE_WARN_SHARE else text)
+        table.add_row(esc(r["engine"]), f"{r['on_time_s']:.1f}", f"{r['pulses']:,}", f"{r['throughput_kg']:.3f}",
+                      ", ".join(used) or "no limits given")
+    out.print(table)
 
 
 def outage_lines(rows: list, confidence) -> list[str]:
@@ -179,7 +206,7 @@ def cmd_check(args) -> int:
         dump_json(data)
     else:
         out = console()
-        style = {"feasible": "bold green", "marginal": "bold yellow"}.get(data["verdict"], "bold red")
+        style = {"feasible": "bold green", "marginal": "bold dark_orange"}.get(data["verdict"], "bold red")
         plans = "approved pending plan(s)" if args.approved_only else "pending plan(s)"
         out.print(f"[{style}]{data['verdict'].upper()}[/]  {esc(args.engine)} {dv:.3f} m/s "
                   f"after {len(data['commitments'])} {plans}")

@@ -85,26 +85,28 @@ def _additive(p: Plan, flow: np.ndarray, rng: np.random.Generator):
     return b, drawn
 
 
-def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng: np.random.Generator):
+def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, inv: np.ndarray, last: np.ndarray, lead: int,
+                rng: np.random.Generator):
     """Final mass and propellant per engine when one engine (or none) flies every delta-v burn.
 
     The final mass is kept_N·(m0 + sum_k b_k/A_k) and b is affine in the flows and the segments' errors
-    eta_k = sd_k z_k, so the sum is one matrix product of 1/A with constant columns: no scan. Whatever mass
-    went that the additive segments do not account for went through the one engine. Given the scaling,
-    the errors enter linearly: the final mass gets kept_N·X (X = sum eta_k/A_k), the additive segments'
-    total Y = sum eta_k, the draws G = -sum split_k z_k; (X, Y, G) is Gaussian with a covariance known per
-    sample, drawn directly (exact: conditioning on everything else), not one random number per segment:
-    (Y, G) from its constant covariance, then X given them.
+    eta_k = sd_k z_k, so the sum is one matrix product of 1/A (``inv``, from ``_inverse_kept``; ``last`` is
+    kept_N; the first ``lead`` additive segments have 1/A = 1) with constant columns: no scan. Whatever mass went that the additive segments do not account
+    for went through the one engine. Given the scaling, the errors enter linearly: the final mass gets
+    kept_N·X (X = sum eta_k/A_k), the additive segments' total Y = sum eta_k, the draws G = -sum split_k z_k;
+    (X, Y, G) is Gaussian with a covariance known per sample, drawn directly (exact: conditioning on
+    everything else), not one random number per segment: (Y, G) from its constant covariance, then X given them.
     """
     n, m, nd = len(m0), p.split.shape[1], p.dur_engines.size
     drawn = p.drawn_const + flow * p.seconds
     total = p.b_const.sum() - flow @ p.seconds
     acc = m0
     if p.b_const.size:
-        inv = 1.0 / kept[:, p.ns_before]
-        cols = inv @ p.weights
+        cols = inv @ p.weights[lead:]
+        if lead:
+            cols += p.weights[:lead].sum(axis=0)
         acc = m0 + cols[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], cols[:, 1:1 + nd])
-    final = kept[:, -1] * acc
+    final = last * acc
     if p.b_sd.any():
         # (Y, G) has the constant covariance total_cov: drawn with its fixed root. X given (Y, G) is
         # Gaussian with mean c·S⁺·(Y, G) and variance var(X) - c·S⁺·c (conditioning a joint Gaussian;
@@ -115,13 +117,133 @@ def _one_engine(p: Plan, m0: np.ndarray, flow: np.ndarray, kept: np.ndarray, rng
         c[:, 0] = cols[:, 1 + nd]
         c[:, 1:] = -cols[:, 2 + nd:]
         k = c @ p.total_pinv
-        var_x = np.einsum("ij,ij,j->i", inv, inv, p.weights[:, 1 + nd]) - np.einsum("ij,ij->i", k, c)
+        np.square(inv, out=inv)  # inv is not needed after this: var(X) = sum_k var_b_k / A_k^2
+        var_x = inv @ p.weights[lead:, 1 + nd] + p.weights[:lead, 1 + nd].sum() - np.einsum("ij,ij->i", k, c)
         x = np.einsum("ij,ij->i", k, yg) + np.sqrt(np.maximum(var_x, 0.0)) * z[:, 0]
-        final = final + kept[:, -1] * x
+        final = final + last * x
         total = total + yg[:, 0]
         drawn = drawn + yg[:, 1:] + rng.standard_normal((n, m)) @ p.resid.T
     if p.single is not None:
         drawn[:, p.single] += m0 + total - final
+    return final, drawn
+
+
+def _inverse_kept(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):
+    """1/A before the additive segments (n, Ka - lead), the fraction kept at the end (n,) and ``lead``,
+    the leading additive segments left out of the first (they come before any burn: their 1/A is 1).
+
+    The same draws as ``_scaling`` (one normal per scaling segment, in the same order), summed in delta-v
+    space: with one exhaust velocity per sample, ln A_i = -(delta-v of the scaling segments before i)/ve,
+    so 1/A is exp(+cum/ve), taken over the columns the additive segments use and in place in the array
+    the draws came in (no reciprocal, no second (n, Ks) array: a chunk's working set is one array).
+    """
+    ks = p.sc.size
+    if not ks:
+        return np.ones((n, p.b_const.size)), np.ones(n), 0
+    rate = 1.0 / ve[:, p.single:p.single + 1]  # (n, 1)
+    if p.dv_sd.any():
+        cum = rng.standard_normal((n, ks))
+        cum *= p.dv_sd
+        cum += p.dv
+    else:
+        cum = np.broadcast_to(p.dv, (n, ks)).copy()
+    np.cumsum(cum, axis=1, out=cum)  # cum[:, i]: delta-v of the scaling segments up to and with i
+    last = np.exp(-cum[:, -1] * rate[:, 0])
+    np.multiply(cum, rate, out=cum)  # the whole array: contiguous passes are cheaper than a view's
+    np.exp(cum, out=cum)
+    cols = p.ns_before  # per additive segment, the scaling segments before it: cum's column one to the left
+    if isinstance(cols, slice):
+        lead = 1 if cols.start == 0 else 0
+        return cum[:, cols.start + lead - 1:cols.stop - 1], last, lead
+    return np.concatenate([np.ones((n, 1)), cum], axis=1)[:, cols], last, 0
+
+
+def _engines(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.random.Generator):
+    """Final mass and propellant per engine when several engines fly the delta-v burns.
+
+    As in ``_one_engine`` the final mass is kept_N·(m0 + sum_k b_k/A_k). Scaling segment i of engine e
+    burns step_i·acc_i (step_i = kept_i - kept_i+1, acc_i = m0 + sum over additive k before i of b_k/A_k),
+    so engine e burns B_e = m0·Q_e0 + sum_k b_k·Q_ek/A_k, Q_ek the steps of e's segments after k: again
+    affine in the additive errors eta_k, with coefficients known per sample once the scaling is drawn.
+    So (X, H) = (sum eta_k/A_k, sum eta_k Q_ek/A_k for every delta-v engine but the one of most segments)
+    given (Y, G) (``_one_engine``) is Gaussian with a per-sample mean and a small per-sample covariance,
+    drawn directly with its own root (exact: conditioning a joint Gaussian), and the engine left out takes
+    what the mass balance leaves. One normal per scaling segment and a few per sample, none per additive
+    segment; an engine's terms stop at its last segment (Q_ek = 0 after it), so an apogee engine that
+    flew a few early burns costs next to nothing.
+    """
+    n, ks, ka, m, nd = len(m0), p.sc.size, p.b_const.size, p.split.shape[1], p.dur_engines.size
+    cum = rng.standard_normal((n, ks)) if p.dv_sd.any() else np.zeros((n, ks))
+    cum *= p.dv_sd
+    cum += p.dv
+    cum *= (1.0 / ve)[:, p.eng]  # each segment over its own engine's exhaust velocity
+    np.cumsum(cum, axis=1, out=cum)
+    np.exp(cum, out=cum)  # cum[:, i] = 1/kept after scaling segment i
+    last = 1.0 / cum[:, -1]
+    ns = p.ns_before
+    if isinstance(ns, slice):
+        lead = 1 if ns.start == 0 else 0
+        inv = cum[:, ns.start + lead - 1:ns.stop - 1]
+        ns = np.arange(ns.start, ns.stop)
+    else:
+        lead, inv = 0, np.concatenate([np.ones((n, 1)), cum], axis=1)[:, ns]
+    engines, counts = np.unique(p.eng, return_counts=True)
+    balance = int(engines[np.argmax(counts)])
+    drawn = p.drawn_const + flow * p.seconds
+    total = p.b_const.sum() - flow @ p.seconds
+    burnt, coef = [], []  # per explicit engine: m0·Q_e0, and Q_ek/A_k over the additive segments before its last
+    for e in (int(e) for e in engines if e != balance):
+        idx = np.flatnonzero(p.eng == e)
+        before = np.ones((n, idx.size))  # kept before each of e's segments
+        before[:, idx > 0] = 1.0 / cum[:, idx[idx > 0] - 1]
+        step = before - 1.0 / cum[:, idx]
+        q = np.zeros((n, idx.size + 1))
+        np.cumsum(step[:, ::-1], axis=1, out=q[:, -2::-1])  # q[:, t]: e's steps from its t-th segment on
+        burnt.append(m0 * q[:, 0])
+        upto = int(np.searchsorted(ns, idx[-1], side="right"))  # additive segments with an e-segment after
+        g = q[:, np.searchsorted(idx, ns[:upto])]
+        g[:, lead:] *= inv[:, :upto - lead]
+        coef.append((e, upto, g))
+    explicit = [e for e, _, _ in coef]
+    if ka:
+        cols = inv @ p.weights[lead:]
+        if lead:
+            cols += p.weights[:lead].sum(axis=0)
+        c_e = [g @ p.weights[:upto] for _, upto, g in coef]
+        final = last * (m0 + cols[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], cols[:, 1:1 + nd]))
+        burnt = [b + c[:, 0] - np.einsum("ij,ij->i", flow[:, p.dur_engines], c[:, 1:1 + nd]) for b, c in zip(burnt, c_e)]
+        if p.b_sd.any():
+            r = 1 + len(coef)
+            z = rng.standard_normal((n, r + m + 1))
+            yg = z[:, r:] @ p.total_root.T
+            c = np.empty((n, r, m + 1))  # cov((X, H), (Y, G)) per sample
+            for a, col in enumerate([cols] + c_e):
+                c[:, a, 0] = col[:, 1 + nd]
+                c[:, a, 1:] = -col[:, 2 + nd:]
+            k = c @ p.total_pinv
+            var_b = p.weights[:, 1 + nd]
+            cov = np.empty((n, r, r))  # cov((X, H)) per sample: sums of var_b_k times the coefficients
+            for a, (_, upto, g) in enumerate(coef, start=1):
+                h = g * var_b[:upto]
+                cov[:, 0, a] = cov[:, a, 0] = h[:, :lead].sum(axis=1) + np.einsum("ij,ij->i", h[:, lead:], inv[:, :upto - lead])
+                for b_, (_, upto2, g2) in enumerate(coef[a - 1:], start=a):
+                    w = min(upto, upto2)
+                    cov[:, a, b_] = cov[:, b_, a] = np.einsum("ij,ij->i", h[:, :w], g2[:, :w])
+            np.square(inv, out=inv)
+            cov[:, 0, 0] = inv @ var_b[lead:] + var_b[:lead].sum()
+            cov -= k @ c.transpose(0, 2, 1)
+            lam, vec = np.linalg.eigh(cov)
+            root = vec * np.sqrt(np.maximum(lam, 0.0))[:, None, :]
+            u = np.einsum("nab,nb->na", k, yg) + np.einsum("nab,nb->na", root, z[:, :r])
+            final = final + last * u[:, 0]
+            burnt = [b + u[:, 1 + j] for j, b in enumerate(burnt)]
+            total = total + yg[:, 0]
+            drawn = drawn + yg[:, 1:] + rng.standard_normal((n, m)) @ p.resid.T
+    else:
+        final = last * m0
+    drawn[:, balance] += m0 + total - final - sum(burnt, np.zeros(n))
+    for e, b in zip(explicit, burnt):
+        drawn[:, e] += b
     return final, drawn
 
 
@@ -171,17 +293,21 @@ def _run(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.rand
 
     kept[:, i] is the fraction of mass the scaling segments before i leave (A in replay.mass_scan) and
     acc[:, j] is m0 + sum of b/A over the first j additive segments, so the mass before a segment is
-    kept·acc and a scaling segment burns (kept_i - kept_i+1)·acc. With one engine on the delta-v burns
-    ``_one_engine`` needs neither acc nor a random number per additive segment.
+    kept·acc and a scaling segment burns (kept_i - kept_i+1)·acc. ``_one_engine`` (one engine on the
+    delta-v burns) and ``_engines`` (several) need neither acc nor a random number per additive segment;
+    this scan (``dense``) is what they fall back on when a mass ratio leaves float range.
     """
     n, ks, ka = len(m0), p.sc.size, p.b_const.size
-    log_a, kept = _scaling(p, ve, rng, n)
     with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
-        if (ks == 0 or p.single is not None) and not dense:
-            final, used = _one_engine(p, m0, flow, kept, rng)
+        if not dense:
+            if ks == 0 or p.single is not None:
+                final, used = _one_engine(p, m0, flow, *_inverse_kept(p, ve, rng, n), rng)
+            else:
+                final, used = _engines(p, m0, ve, flow, rng)
             if np.all(np.isfinite(final)) and np.all(np.isfinite(used)):
                 return final, used
             return _run(p, m0, ve, flow, rng, dense=True)
+        log_a, kept = _scaling(p, ve, rng, n)
         acc = np.empty((n, ka + 1))
         acc[:, 0] = m0
         b, drawn = None, np.zeros(flow.shape)

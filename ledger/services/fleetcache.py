@@ -16,7 +16,8 @@ import orjson
 from .. import __version__
 from ..store import sidefiles
 
-PURPOSE = "propledger fleet cache v1"
+PURPOSE = "propledger fleet cache v2"
+"""v2: rows of craft with delta-v burns on several engines come from other Monte Carlo draws (uncertainty.SEGMENTS_SAMPLER)."""
 MAX_BYTES = 256 << 20
 
 

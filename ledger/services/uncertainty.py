@@ -40,6 +40,10 @@ moved by more than max(0.1 m/s, 1 % of the approved figure). 1 % is the default 
 
 TABLES_SAMPLER = "blowdown-feedback-1"
 """Names the Monte Carlo of craft with performance tables (``core.mcblowdown``) in the confidence cache key."""
+SEGMENTS_SAMPLER = "segments-2"
+"""Names the constant-performance Monte Carlo (``core.montecarlo``) in the confidence cache key. 2: craft with
+delta-v burns on several engines draw their additive errors by conditioning (``montecarlo._engines``), other
+random numbers than before, so a result cached by the previous sampler is not reused."""
 
 
 MAX_SAMPLES = 1_000_000
@@ -245,6 +249,8 @@ def confidence_status(snapshot: Snapshot, confidence: float = DEFAULT_CONFIDENCE
         key = {"head": list(snapshot.head), "confidence": confidence, "samples": samples, "seed": seed}
         if snapshot.blowdown is not None and snapshot.blowdown.flown is not None:
             key["sampler"] = TABLES_SAMPLER  # a result cached by the constant-performance stand-in is not reused
+        else:
+            key["sampler"] = SEGMENTS_SAMPLER
         return cached(side_path(snapshot.path), key, lambda: _confidence_status(snapshot, confidence, samples, seed, progress))
     return _confidence_status(snapshot, confidence, samples, seed, progress)
 

@@ -23,9 +23,10 @@ from ..errors import InputError, StoreError
 from . import pgschema
 from .pgstore import CONNECT_TIMEOUT_S, _first_line, _shown, parse_address
 
-RELIST_S = 30.0
-"""How often the listener re-reads the listing (one indexed query): a new craft sends no notification
-(only entries do), and a superuser's edit sends none either."""
+RELIST_S = 2.0
+"""How often the listener re-reads the listing: a new craft sends no notification (only entries do), and a
+superuser's edit sends none either, so this bounds how late they show. The listing is one indexed query
+(about 11 ms of server time for 500 craft, docs/postgresql.md), so every 2 s costs the server under 1 %."""
 
 _HEADS = """
 SELECT c.name, c.hash, coalesce(h.seq, 0), coalesce(h.hash, c.hash),

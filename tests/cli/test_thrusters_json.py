@@ -33,7 +33,9 @@ FLOW = {"acs": 2.0 / (220.0 * constants.g), "trim": 4.0 / (222.0 * constants.g)}
 LIFE = {"acs": {"pulses": 1000.0, "throughput_kg": 5.0, "on_time_s": 3600.0}, "trim": {}}
 
 
-def test_status_json_thrusters_match_the_sum_of_the_entries(tmp_path):
+def logged(tmp_path) -> str:
+    """The test craft's ledger with pulse trains, timed firings, firings by delta-v and propellant, a mass
+    change and a recount (a correction of the first pulse train)."""
     (tmp_path / "c.yaml").write_text(CRAFT)
     led = str(tmp_path / "l.json")
     run("--ledger", led, "init", "--craft", str(tmp_path / "c.yaml"), check=True)
@@ -45,6 +47,11 @@ def test_status_json_thrusters_match_the_sum_of_the_entries(tmp_path):
                  ["mass", "--delta", "-1 kg", "--at", "2026-03-06T00:00Z"],
                  ["correct", "--entry", "1", "--pulses", "150", "--on-time", "40 ms", "--reason", "recount"]):
         run("--ledger", led, *args, check=True)
+    return led
+
+
+def test_status_json_thrusters_match_the_sum_of_the_entries(tmp_path):
+    led = logged(tmp_path)
     status = json.loads(run("--ledger", led, "status", "--json", "--samples", "200", check=True).stdout)
     jsonschema.Draft202012Validator(schemas.STATUS).validate(status)
     rows = json.loads(run("--ledger", led, "log", "--json", check=True).stdout)
@@ -79,3 +86,16 @@ def test_status_json_thrusters_match_the_sum_of_the_entries(tmp_path):
         assert got[e]["life_used"] == pytest.approx({k: (want["pulses"] if k == "pulses" else want[k]) / v
                                                      for k, v in LIFE[e].items()})
     assert expected["acs"]["pulses"] == 150 + 300  # the recount replaced the first train's 120
+
+
+def test_plain_status_lists_the_same_totals(tmp_path):
+    led = logged(tmp_path)
+    status = json.loads(run("--ledger", led, "status", "--json", "--samples", "200", check=True).stdout)
+    text = run("--ledger", led, "status", "--samples", "200", check=True).stdout
+    assert "Thruster use, whole ledger" in text
+    lines = {ln.split()[0]: ln for ln in text.splitlines() if ln.strip().startswith(("acs ", "trim "))}
+    for t in status["thrusters"]:
+        cells = lines[t["engine"]].split()
+        assert cells[1:4] == [f"{t['on_time_s']:.1f}", f"{t['pulses']:,}", f"{t['throughput_kg']:.3f}"]
+    assert "pulses 45 %" in lines["acs"]  # 450 of the 1,000 qualified pulses (the sum checked above)
+    assert "no limits given" in lines["trim"]

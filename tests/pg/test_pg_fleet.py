@@ -335,3 +335,35 @@ def test_a_folder_fleet_never_imports_the_driver_and_a_database_fleet_table_no_c
             assert main(["fleet", "--fleet", {db.url!r}, "--json"]) == 0
     """)
     assert "psycopg" in mods and "textual" not in mods
+
+
+def test_a_craft_created_while_the_fleet_screen_is_open_shows_as_a_row(pg):
+    """A new craft sends no notification; the listener's listing every RELIST_S brings it in."""
+    from ledger.tui.fleet import FleetApp  # noqa: PLC0415
+
+    name = f"fleet{next(_dbs)}"
+    pg.psql(f"CREATE DATABASE {name} OWNER {OWNER}", db="postgres")
+    assert main(["--ledger", pg.url(db=name, user=OWNER, craft="first"), "init", "--craft",
+                 scenario.bundled()["leo-smallsat"]]) == 0
+    pg.psql(pgschema.GRANTS.format(role="pl_ops"), db=name, user=OWNER)
+    source = DatabaseSource(f"postgresql://alice@/{name}?host={pg.sock}")
+
+    async def go():
+        app = FleetApp(source)
+        async with app.run_test(size=(120, 30)) as pilot:
+            t0 = time.perf_counter()
+            while not app.loaded.is_set() and time.perf_counter() - t0 < 60:
+                await pilot.pause(0.1)
+            assert len(app.rows) == 1
+            create(pg.url(db=name, craft="second"), biprop(), by="test")
+            t0 = time.perf_counter()
+            while len(app.rows) == 1 and time.perf_counter() - t0 < 10.0:
+                await pilot.pause(0.1)
+            took = time.perf_counter() - t0
+            # the listing period, then a poll and the row's read; 1.5 s more for a loaded 2-core machine
+            assert len(app.rows) == 2 and took < pgfleet.RELIST_S + 2.5, took
+            assert any(m.endswith("craft=second") for m in app.rows)
+    try:
+        asyncio.run(go())
+    finally:
+        source.close()

@@ -70,3 +70,27 @@ def test_service_defaults_are_the_samplers_own():
     from ledger.services import uncertainty as u
 
     assert (u.DEFAULT_SAMPLES, u.DEFAULT_SEED) == (montecarlo.DEFAULT_SAMPLES, montecarlo.DEFAULT_SEED)
+
+
+def test_a_result_cached_by_the_previous_sampler_is_not_reused(tmp_path):
+    # The draws of craft with delta-v burns on several engines changed (montecarlo._engines): a cache entry
+    # under the key the previous sampler wrote (no "sampler" field) must not answer; one under today's key
+    # does (so the check is not vacuous). The sentinel is a genuine sealed entry (confcache.store).
+    from ledger.services import confcache
+
+    two = Craft("svc2", 900.0, (Tank("t", "N2H4", 300.0, 3.0),),
+                (Engine("e", 225.0, 22.0, {"t": 1.0}), Engine("f", 220.0, 1.0, {"t": 1.0})),
+                (Reserve("eol", "e", 25.0),))
+    path = str(tmp_path / "svc2.ledger.json")
+    create(path, two, by="test")
+    led = Ledger(path)
+    led.record("burn", {"engine": "e", "dv": 40.0})
+    led.record("burn", {"engine": "f", "dv": 1.0})
+    snap = led.snapshot()
+    key = {"head": list(snap.head), "confidence": 0.95, "samples": 400, "seed": 7}
+    sentinel = {"sentinel": True}
+    old = dict(key, program=confcache.__version__)
+    assert confcache.store(path, old, sentinel)
+    assert "sentinel" not in uncertainty.confidence_status(snap, 0.95, 400, 7)
+    assert confcache.store(path, dict(old, sampler=uncertainty.SEGMENTS_SAMPLER), sentinel)
+    assert uncertainty.confidence_status(snap, 0.95, 400, 7) == sentinel

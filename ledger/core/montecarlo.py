@@ -8,9 +8,11 @@ stands for the flow's firing-to-firing repeatability); the sample's own flow sca
 
 The ledger is compressed first (``core.segments``), then samples run in chunks, each a (samples x
 segments) prefix scan sized to stay in the processor's cache, so memory stays bounded whatever the
-sample count. Normal draws are the largest cost, so they are kept to one per scaling segment and, for
-additive segments, one per segment (``_additive``) or, when a single engine flies the delta-v burns, none
-at all (``_one_engine``); both are exact in distribution, not approximations.
+sample count. Normal draws are the largest cost (about 60 % of a run), so there is one per scaling
+segment and none per additive segment: given the scaling, the mass and each engine's burns are affine in
+the additive segments' errors, whose few per-sample totals are drawn directly (``_one_engine`` when one
+engine flies the delta-v burns, ``_engines`` when several do); exact in distribution, not approximations.
+The scan with one draw per additive segment (``_additive``) is kept for mass ratios beyond float range.
 
 Re-baselines cut the ledger into runs (``segments.parts``): each sample's mass and tanks are carried from
 one run to the next, and at a re-baseline the tank takes a fresh draw around the adopted value, the mass

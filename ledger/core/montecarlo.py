@@ -8,9 +8,11 @@ stands for the flow's firing-to-firing repeatability); the sample's own flow sca
 
 The ledger is compressed first (``core.segments``), then samples run in chunks, each a (samples x
 segments) prefix scan sized to stay in the processor's cache, so memory stays bounded whatever the
-sample count. Normal draws are the largest cost, so they are kept to one per scaling segment and, for
-additive segments, one per segment (``_additive``) or, when a single engine flies the delta-v burns, none
-at all (``_one_engine``); both are exact in distribution, not approximations.
+sample count. Normal draws are the largest cost (about 60 % of a run), so there is one per scaling
+segment and none per additive segment: given the scaling, the mass and each engine's burns are affine in
+the additive segments' errors, whose few per-sample totals are drawn directly (``_one_engine`` when one
+engine flies the delta-v burns, ``_engines`` when several do); exact in distribution, not approximations.
+The scan with one draw per additive segment (``_additive``) is kept for mass ratios beyond float range.
 
 Re-baselines cut the ledger into runs (``segments.parts``): each sample's mass and tanks are carried from
 one run to the next, and at a re-baseline the tank takes a fresh draw around the adopted value, the mass
@@ -232,8 +234,7 @@ def _engines(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.
             np.square(inv, out=inv)
             cov[:, 0, 0] = inv @ var_b[lead:] + var_b[:lead].sum()
             cov -= k @ c.transpose(0, 2, 1)
-            lam, vec = np.linalg.eigh(cov)
-            root = vec * np.sqrt(np.maximum(lam, 0.0))[:, None, :]
+            root = _psd_root(cov)
             u = np.einsum("nab,nb->na", k, yg) + np.einsum("nab,nb->na", root, z[:, :r])
             final = final + last * u[:, 0]
             burnt = [b + u[:, 1 + j] for j, b in enumerate(burnt)]
@@ -245,6 +246,24 @@ def _engines(p: Plan, m0: np.ndarray, ve: np.ndarray, flow: np.ndarray, rng: np.
     for e, b in zip(explicit, burnt):
         drawn[:, e] += b
     return final, drawn
+
+
+def _psd_root(cov: np.ndarray) -> np.ndarray:
+    """Lower-triangular R with R R' = cov for a stack (n, r, r) of covariances, r the few delta-v engines.
+
+    Cholesky by columns over the whole stack (a batched eigendecomposition cost more than the rest of a
+    chunk); a pivot that rounding left at or below zero (a singular covariance: an error fully explained
+    by the totals drawn before) counts as 0 and its column as 0, which is that covariance's own root."""
+    n, r, _ = cov.shape
+    root = np.zeros_like(cov)
+    for j in range(r):
+        pivot = np.sqrt(np.maximum(cov[:, j, j] - np.einsum("nk,nk->n", root[:, j, :j], root[:, j, :j]), 0.0))
+        root[:, j, j] = pivot
+        keep = pivot > 1e-9 * np.sqrt(np.abs(cov[:, j, j]))
+        for i in range(j + 1, r):
+            s = cov[:, i, j] - np.einsum("nk,nk->n", root[:, i, :j], root[:, j, :j])
+            root[:, i, j] = np.divide(s, pivot, out=np.zeros(n), where=keep)
+    return root
 
 
 def _scaling(p: Plan, ve: np.ndarray, rng: np.random.Generator, n: int):

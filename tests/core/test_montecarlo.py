@@ -301,3 +301,17 @@ def test_entry_sigmas_for_many_entries_are_entry_sigma_for_each():
     got = entry_sigmas([f for _, f in data], np.array([d[f] for d, f in data]),
                        np.array([d.get("sigma", np.nan) for d, _ in data]))
     assert got.tolist() == [entry_sigma(d, f) for d, f in data]
+
+
+def test_root_of_the_per_sample_covariances():
+    # montecarlo._psd_root against numpy.linalg.cholesky (numpy 2.4, LAPACK potrf) on full-rank covariances,
+    # and R R' = cov on rank-deficient ones (where a Cholesky factorisation does not exist).
+    rng = np.random.default_rng(3)
+    a = rng.standard_normal((200, 3, 3))
+    full = a @ a.transpose(0, 2, 1)
+    assert np.allclose(mc._psd_root(full), np.linalg.cholesky(full), rtol=1e-10, atol=1e-12)
+    b = rng.standard_normal((200, 3, 2))
+    low = b @ b.transpose(0, 2, 1)
+    root = mc._psd_root(low)
+    assert np.allclose(root @ root.transpose(0, 2, 1), low, atol=1e-9)
+    assert np.all(np.isfinite(root)) and np.allclose(np.triu(root, 1), 0.0)

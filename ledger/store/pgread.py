@@ -10,9 +10,8 @@ be loaded (the caller then uses psycopg): the system's ``libpq.so.5``, else the 
 from __future__ import annotations
 
 import ctypes
-import glob
 import os
-from typing import Any, Sequence
+from typing import Any, Iterator, Sequence
 
 CONNECTION_OK = 0
 PGRES_TUPLES_OK = 2
@@ -28,17 +27,19 @@ class ReadError(Exception):
         self.sqlstate, self.connecting = sqlstate, connecting
 
 
-def _candidates() -> list[str]:
-    names = ["libpq.so.5", "libpq.5.dylib"]
+def _candidates() -> Iterator[str]:
+    """The system's libpq first; only when it does not load, the one psycopg-binary ships (looked for then)."""
+    yield from ("libpq.so.5", "libpq.5.dylib")
     try:
         import importlib.util  # noqa: PLC0415
 
         spec = importlib.util.find_spec("psycopg_binary")  # found, not imported
     except (ImportError, ValueError):
         spec = None
+    import glob  # noqa: PLC0415
+
     for folder in (spec.submodule_search_locations or []) if spec else []:
-        names += sorted(glob.glob(os.path.join(os.path.dirname(folder), "psycopg_binary.libs", "libpq*.so*")))
-    return names
+        yield from sorted(glob.glob(os.path.join(os.path.dirname(folder), "psycopg_binary.libs", "libpq*.so*")))
 
 
 def _libpq() -> Any:

@@ -12,8 +12,6 @@ on the head this process last saw and relinked on the head the server returns wh
 """
 from __future__ import annotations
 
-import getpass
-import socket
 import threading
 import time
 from contextlib import contextmanager
@@ -559,6 +557,8 @@ class PgStore:
         """``by`` is the session user; a different name the writer gave is kept as ``on_behalf_of``
         (the operating-system login, the default when no --by is given, is not kept)."""
         out = {"by": str(self.user)}
+        import getpass  # noqa: PLC0415 - only to write
+
         try:
             login = getpass.getuser()
         except Exception:  # noqa: BLE001 - no login name in some containers
@@ -589,6 +589,8 @@ class PgStore:
     def _append_on(self, conn: psycopg.Connection, records: list[Mapping[str, Any]]) -> list[dict[str, Any]]:
         head = self._head_seen if self._head_seen is not None and self._layout_ok else self._head(conn)
         self._session_user(conn)
+        import socket  # noqa: PLC0415 - only to write (its import is about 6 ms of a read-only command)
+
         host, program = socket.gethostname(), f"propledger {__version__}"
         for _ in range(RELINKS):
             seq, prev = head
